@@ -1,0 +1,43 @@
+# spikevar developer and user entry points. `make demo` and `make test` are the two set-up commands.
+PYTHON ?= $(shell command -v python3.11 >/dev/null 2>&1 && echo python3.11 || echo python3)
+VENV := .venv
+PY := $(VENV)/bin/python
+STAMP := $(VENV)/.spikevar-installed
+CORES ?= 2
+DEMO_COHORT := demo/cohort
+DEMO_RESULTS := results/demo
+SMK := $(PY) -m snakemake --cores $(CORES)
+
+.PHONY: demo test lint unit workflow-lint bench clean
+
+$(STAMP): pyproject.toml
+	$(PYTHON) -m venv $(VENV)
+	$(PY) -m pip install --quiet --upgrade pip
+	$(PY) -m pip install --quiet -e '.[dev]'
+	touch $(STAMP)
+
+## demo: create the environment, build the synthetic demo cohort, run the whole pipeline
+demo: $(STAMP)
+	$(PY) -m spikevar.demo --out $(DEMO_COHORT)
+	$(SMK) --config sessions=$(DEMO_COHORT)/sessions.tsv results=$(DEMO_RESULTS)
+	@$(PY) -m spikevar.where $(DEMO_RESULTS)
+
+## test: lint the code and the workflow, then run the whole test suite
+test: $(STAMP) lint workflow-lint unit
+
+lint: $(STAMP)
+	$(VENV)/bin/ruff check src tests scripts bench
+
+workflow-lint: $(STAMP)
+	$(PY) -m spikevar.demo --out .lint-cohort --seed 1 >/dev/null
+	$(PY) -m snakemake --lint --config sessions=.lint-cohort/sessions.tsv results=.lint-results
+
+unit: $(STAMP)
+	$(PY) -m pytest -n $(CORES) -q
+
+## bench: run the benchmarks (prints throughput; not part of the tests)
+bench: $(STAMP)
+	for b in bench/bench_*.py; do $(PY) $$b || exit 1; done
+
+clean:
+	rm -rf results .lint-cohort .lint-results .snakemake .pytest_cache

@@ -1,0 +1,26 @@
+# spikevar workflow: wiring only. All computation lives in src/spikevar; see DEVELOPERS.md.
+import sys
+from pathlib import Path
+
+from snakemake.utils import min_version, validate
+
+min_version("9.0")
+
+REPO = Path(workflow.basedir)
+sys.path.insert(0, str(REPO / "src"))
+
+
+configfile: str(REPO / "config" / "config.yaml")
+
+
+validate(config, str(REPO / "workflow" / "schemas" / "config.schema.yaml"))
+
+
+include: "workflow/rules/common.smk"
+include: "workflow/rules/ingest.smk"
+
+
+rule all:
+    input:
+        expand(f"{RESULTS}/sessions/{{session}}/spikes.parquet", session=SESSIONS),
+    default_target: True
