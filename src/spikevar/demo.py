@@ -15,7 +15,7 @@ from __future__ import annotations
 
 import argparse
 from dataclasses import dataclass
-from datetime import datetime, timezone
+from datetime import UTC, datetime
 from pathlib import Path
 
 import numpy as np
@@ -88,11 +88,12 @@ def _write_nwb(path: Path, spikes: pd.DataFrame, events: pd.DataFrame, session: 
 
     nwb = NWBFile(session_description=f"SYNTHETIC demo session {session}",
                   identifier=f"spikevar-demo-{session}",
-                  session_start_time=datetime(2026, 1, 1, tzinfo=timezone.utc),
+                  session_start_time=datetime(2026, 1, 1, tzinfo=UTC),
                   subject=Subject(subject_id=subject, species="Mus musculus",
                                   description="fictional animal, synthetic data"))
+    nwb.add_unit_column(name="unit", description="unit label used in the sorting (synthetic)")
     for unit, frame in spikes.groupby("unit", sort=True):
-        nwb.add_unit(spike_times=frame["time"].to_numpy())
+        nwb.add_unit(spike_times=frame["time"].to_numpy(), unit=str(unit))
     nwb.add_trial_column(name="condition", description="flash condition (synthetic)")
     for t, c in zip(events["time"], events["condition"], strict=True):
         nwb.add_trial(start_time=float(t), stop_time=float(t) + 1.0, condition=str(c))

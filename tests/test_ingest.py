@@ -1,0 +1,242 @@
+"""Ingestion: every supported format, and every kind of bad input with a helpful message."""
+
+import gzip
+import os
+import stat
+
+import numpy as np
+import pandas as pd
+import pyarrow.parquet as pq
+import pytest
+
+from spikevar.demo import _write_nwb
+from spikevar.errors import SpikevarInputError
+from spikevar.ingest import ColumnNames, ingest_session
+from spikevar.parquet_io import read_metadata, sha256_of_file
+
+COLS = ColumnNames()
+SPIKES = pd.DataFrame({"unit": ["b", "a", "a", "b", "a"],
+                       "time": [0.5, 0.1, 0.3, 0.2, 1.25]})
+EVENTS = pd.DataFrame({"time": [0.2, 1.0], "condition": ["dim", "bright"], "trial": [1, 2]})
+
+
+def run(tmp_path, spikes_path, events_path=None, **kw):
+    out = tmp_path / "out"
+    kw.setdefault("time_unit", "s")
+    kw.setdefault("sampling_rate_hz", None)
+    ingest_session(session="s1", spikes_path=spikes_path, events_path=events_path,
+                   columns=kw.pop("columns", COLS), spikes_out=out / "spikes.parquet",
+                   events_out=out / "events.parquet", **kw)
+    return (pq.read_table(out / "spikes.parquet").to_pandas(),
+            pq.read_table(out / "events.parquet").to_pandas(), out)
+
+
+def expected_sorted():
+    return SPIKES.sort_values(["unit", "time"]).reset_index(drop=True)
+
+
+@pytest.mark.parametrize("fmt", ["csv", "tsv", "csv.gz", "tsv.gz", "parquet"])
+def test_each_text_and_parquet_format(tmp_path, fmt):
+    path = tmp_path / f"spk.{fmt}"
+    sep = "\t" if fmt.startswith("tsv") else ","
+    if fmt == "parquet":
+        SPIKES.to_parquet(path)
+        EVENTS.to_parquet(tmp_path / "ev.parquet")
+        ev = tmp_path / "ev.parquet"
+    else:
+        SPIKES.to_csv(path, sep=sep, index=False)
+        ev = tmp_path / f"ev.{fmt}"
+        EVENTS.to_csv(ev, sep=sep, index=False)
+    spikes, events, out = run(tmp_path, path, ev)
+    exp = expected_sorted()
+    assert spikes["unit"].tolist() == exp["unit"].tolist()
+    np.testing.assert_array_equal(spikes["time_s"].to_numpy(), exp["time"].to_numpy())
+    assert str(pq.read_schema(out / "spikes.parquet").field("time_s").type) == "double"
+    assert events["condition"].tolist() == ["dim", "bright"]
+    assert events["trial"].tolist() == [1, 2]
+    meta = read_metadata(out / "spikes.parquet")
+    assert meta["source_sha256"] == sha256_of_file(path)
+    assert meta["declared_time_unit"] == "s"
+    assert meta["rows_read"] == 5 and meta["rows_written"] == 5
+    assert meta["source_path"] == str(path.resolve())
+
+
+def test_nwb_units_and_trials(tmp_path):
+    path = tmp_path / "s.nwb"
+    _write_nwb(path, SPIKES, EVENTS, "s1", "fen")
+    spikes, events, _ = run(tmp_path, path, path, time_unit="ms")  # NWB is always seconds
+    assert len(spikes) == 5
+    assert spikes.groupby("unit").size().to_dict() == {"a": 3, "b": 2}
+    np.testing.assert_allclose(np.sort(spikes["time_s"]), np.sort(SPIKES["time"]))
+    np.testing.assert_allclose(events["time_s"], [0.2, 1.0])
+    assert events["condition"].tolist() == ["dim", "bright"]
+
+
+@pytest.mark.parametrize("unit,factor,rate", [("ms", 1e3, None), ("us", 1e6, None),
+                                              ("samples", 30_000, 30_000.0)])
+def test_time_units_are_converted(tmp_path, unit, factor, rate):
+    path = tmp_path / "spk.csv"
+    SPIKES.assign(time=np.round(SPIKES["time"] * factor)).to_csv(path, index=False)
+    spikes, _, out = run(tmp_path, path, time_unit=unit, sampling_rate_hz=rate)
+    np.testing.assert_allclose(spikes["time_s"], expected_sorted()["time"], rtol=1e-12)
+    assert read_metadata(out / "spikes.parquet")["declared_time_unit"] == unit
+
+
+def test_configurable_column_names(tmp_path):
+    path = tmp_path / "spk.csv"
+    SPIKES.rename(columns={"unit": "cluster_id", "time": "t"}).to_csv(path, index=False)
+    cols = ColumnNames(unit="cluster_id", time="t")
+    spikes, _, _ = run(tmp_path, path, columns=cols)
+    assert len(spikes) == 5
+
+
+def test_integer_unit_ids_become_strings(tmp_path):
+    path = tmp_path / "spk.csv"
+    SPIKES.assign(unit=[7, 12, 12, 7, 12]).to_csv(path, index=False)
+    spikes, _, _ = run(tmp_path, path)
+    assert set(spikes["unit"]) == {"7", "12"}
+
+
+def test_unsorted_rows_are_sorted_and_logged(tmp_path, caplog):
+    path = tmp_path / "spk.csv"
+    SPIKES.to_csv(path, index=False)
+    with caplog.at_level("INFO"):
+        _, _, out = run(tmp_path, path)
+    assert "not sorted" in caplog.text
+    assert read_metadata(out / "spikes.parquet")["input_was_sorted"] is False
+
+
+def test_exact_duplicates_dropped_and_counted(tmp_path, caplog):
+    path = tmp_path / "spk.csv"
+    pd.concat([SPIKES, SPIKES.iloc[[1, 1, 3]]]).to_csv(path, index=False)
+    with caplog.at_level("INFO"):
+        spikes, _, out = run(tmp_path, path)
+    assert len(spikes) == 5
+    assert read_metadata(out / "spikes.parquet")["duplicates_dropped"] == 3
+    assert "3 exact duplicate" in caplog.text
+
+
+# ---------------------------------------------------------------- bad input
+def expect_error(tmp_path, spikes_path, *fragments, events_path=None, **kw):
+    with pytest.raises(SpikevarInputError) as info:
+        run(tmp_path, spikes_path, events_path, **kw)
+    message = str(info.value)
+    assert "session 's1'" in message
+    assert "Fix:" in message
+    for fragment in fragments:
+        assert fragment in message, message
+    assert not (tmp_path / "out" / "spikes.parquet").exists()
+    assert not (tmp_path / "out" / "events.parquet").exists()
+    return message
+
+
+def test_missing_file(tmp_path):
+    expect_error(tmp_path, tmp_path / "nope.csv", "does not exist", "nope.csv")
+
+
+def test_zero_byte_file(tmp_path):
+    (tmp_path / "e.csv").write_bytes(b"")
+    expect_error(tmp_path, tmp_path / "e.csv", "empty")
+
+
+def test_header_only_file(tmp_path):
+    (tmp_path / "h.csv").write_text("unit,time\n")
+    expect_error(tmp_path, tmp_path / "h.csv", "no rows")
+
+
+def test_unreadable_parquet(tmp_path):
+    (tmp_path / "bad.parquet").write_text("this is not parquet")
+    expect_error(tmp_path, tmp_path / "bad.parquet", "could not be read as Parquet")
+
+
+def test_gz_that_is_not_gzip(tmp_path):
+    (tmp_path / "x.csv.gz").write_text("unit,time\na,1\n")
+    expect_error(tmp_path, tmp_path / "x.csv.gz", "not gzip")
+
+
+def test_unsupported_extension(tmp_path):
+    (tmp_path / "x.xlsx").write_text("junk")
+    expect_error(tmp_path, tmp_path / "x.xlsx", "not supported")
+
+
+def test_missing_columns_lists_found(tmp_path):
+    path = tmp_path / "spk.csv"
+    SPIKES.rename(columns={"time": "spike_time"}).to_csv(path, index=False)
+    msg = expect_error(tmp_path, path, "'time'", "'spike_time'", "'unit'", "columns")
+    assert "the file has" in msg
+
+
+def test_non_numeric_time_names_row(tmp_path):
+    path = tmp_path / "spk.csv"
+    path.write_text("unit,time\na,0.1\na,0.2\nb,oops\n")
+    expect_error(tmp_path, path, "Non-numeric", "3 (line 4)", "column 'time'")
+
+
+@pytest.mark.parametrize("value,word", [("", "NaN"), ("nan", "NaN"), ("inf", "Infinite"),
+                                        ("-0.5", "Negative")])
+def test_nan_inf_negative_times(tmp_path, value, word):
+    path = tmp_path / "spk.csv"
+    path.write_text(f"unit,time\na,0.1\nb,{value}\na,0.3\n")
+    expect_error(tmp_path, path, word, "2 (line 3)")
+
+
+def test_implausible_unit_seconds_suggests_ms(tmp_path):
+    path = tmp_path / "spk.csv"
+    SPIKES.assign(time=SPIKES["time"] * 1e3 + 1.0e8).to_csv(path, index=False)
+    expect_error(tmp_path, path, "days", "'ms'")
+
+
+def test_implausible_unit_ms_suggests_s(tmp_path):
+    path = tmp_path / "spk.csv"
+    t = np.arange(0, 2, 0.01)
+    pd.DataFrame({"unit": "a", "time": t}).to_csv(path, index=False)
+    expect_error(tmp_path, path, "us", "'s'", time_unit="ms")
+
+
+def test_samples_without_rate(tmp_path):
+    path = tmp_path / "spk.csv"
+    SPIKES.to_csv(path, index=False)
+    expect_error(tmp_path, path, "sampling", time_unit="samples", sampling_rate_hz=None)
+
+
+def test_events_missing_condition_column(tmp_path):
+    path = tmp_path / "spk.csv"
+    SPIKES.to_csv(path, index=False)
+    ev = tmp_path / "ev.csv"
+    EVENTS.drop(columns="condition").to_csv(ev, index=False)
+    msg = expect_error(tmp_path, path, "'condition'", events_path=ev)
+    assert "ev.csv" in msg
+
+
+def test_events_outside_span_warn(tmp_path, caplog):
+    path = tmp_path / "spk.csv"
+    SPIKES.to_csv(path, index=False)
+    ev = tmp_path / "ev.csv"
+    EVENTS.assign(time=[0.2, 50.0]).to_csv(ev, index=False)
+    with caplog.at_level("WARNING"):
+        _, events, out = run(tmp_path, path, ev)
+    assert "outside the recording span" in caplog.text
+    assert len(events) == 2
+    assert read_metadata(out / "events.parquet")["warnings"]
+
+
+def test_raw_files_are_never_written(tmp_path):
+    path = tmp_path / "spk.csv.gz"
+    with gzip.open(path, "wt") as handle:
+        SPIKES.to_csv(handle, index=False)
+    before = sha256_of_file(path)
+    os.chmod(path, stat.S_IRUSR)
+    try:
+        run(tmp_path, path)
+    finally:
+        os.chmod(path, stat.S_IRUSR | stat.S_IWUSR)
+    assert sha256_of_file(path) == before
+
+
+def test_failed_events_leave_no_spikes_output(tmp_path):
+    # a session with valid spikes but broken events writes neither file
+    path = tmp_path / "spk.csv"
+    SPIKES.to_csv(path, index=False)
+    ev = tmp_path / "ev.csv"
+    ev.write_text("time,condition\nabc,dim\n")
+    expect_error(tmp_path, path, "Non-numeric", events_path=ev)
