@@ -18,9 +18,14 @@ validate(config, str(REPO / "workflow" / "schemas" / "config.schema.yaml"))
 
 include: "workflow/rules/common.smk"
 include: "workflow/rules/ingest.smk"
+include: "workflow/rules/metrics.smk"
 
 
 rule all:
     input:
-        expand(f"{RESULTS}/sessions/{{session}}/spikes.parquet", session=SESSIONS),
+        expand(
+            f"{RESULTS}/sessions/{{session}}/{{table}}.parquet",
+            session=SESSIONS,
+            table=["units", "count_fano", "fano_timecourse"],
+        ),
     default_target: True
