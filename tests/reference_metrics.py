@@ -46,6 +46,6 @@ def trial_counts_loop(times, events, left_edges, width):
     for i, e in enumerate(events):
         for j, left in enumerate(left_edges):
             lo = e + left
-            hi = lo + width
+            hi = e + (left + width)  # package convention: window [e + l, e + (l + w))
             out[i, j] = sum(1 for t in times if lo <= t < hi)
     return out

@@ -6,6 +6,7 @@ import numpy as np
 import pandas as pd
 from scipy import stats
 
+from spikevar.segments import unit_blocks
 from spikevar.spike_arrays import SpikeArrays
 
 REASON_FEW_WINDOWS = "fewer than 2 windows fit in the recording"
@@ -23,28 +24,45 @@ def poisson_fano_bounds(n_windows, *, level: float = 0.95):
     return stats.chi2.ppf(alpha / 2, dof) / dof, stats.chi2.ppf(1 - alpha / 2, dof) / dof
 
 
+def window_index(times: np.ndarray, *, start_s: float, window_s: float) -> np.ndarray:
+    """Index k of the window ``[start + k w, start + (k + 1) w)`` holding each time.
+
+    Computed by floor division, then corrected by one step where rounding put a time that lies
+    exactly on an edge on the wrong side, so the result matches comparisons against the edges
+    ``start + w * k`` exactly (a spike on an edge belongs to the later window).
+    """
+    k = np.floor((times - start_s) / window_s)
+    low_edge = start_s + window_s * k
+    k = np.where(times < low_edge, k - 1, k)
+    k = np.where(times >= start_s + window_s * (k + 1), k + 1, k)
+    return k.astype(np.int64)
+
+
 def window_count_moments(spikes: SpikeArrays, *, start_s: float, window_s: float,
-                         n_windows: int):
+                         n_windows: int, block_spikes: int = 2_000_000):
     """Sum and sum of squares of per-window counts for every unit (zeros never materialised).
 
-    Window ``k`` is ``[start + k w, start + (k + 1) w)``: a spike exactly on an edge belongs to
-    the later window. Only nonzero bins are formed: spikes are sorted by unit then time, so the
-    key (unit, window) is non-decreasing and run lengths give the counts.
+    Only nonzero bins are formed: spikes are sorted by unit then time, so within a unit the
+    window index is non-decreasing and run lengths give the counts. Units are processed in
+    blocks of about ``block_spikes`` spikes to bound memory.
     """
     n_units = spikes.n_units
+    s1, s2 = np.zeros(n_units), np.zeros(n_units)
     if n_windows < 1 or len(spikes.times) == 0:
-        return np.zeros(n_units), np.zeros(n_units)
-    edges = start_s + window_s * np.arange(n_windows + 1)
-    window = np.searchsorted(edges, spikes.times, side="right") - 1
-    inside = (window >= 0) & (window < n_windows)
-    key = spikes.codes[inside] * np.int64(n_windows) + window[inside]
-    if len(key) == 0:
-        return np.zeros(n_units), np.zeros(n_units)
-    starts = np.flatnonzero(np.concatenate([[True], key[1:] != key[:-1]]))
-    counts = np.diff(np.concatenate([starts, [len(key)]])).astype(float)
-    unit_of_run = key[starts] // n_windows
-    s1 = np.bincount(unit_of_run, weights=counts, minlength=n_units)
-    s2 = np.bincount(unit_of_run, weights=counts**2, minlength=n_units)
+        return s1, s2
+    offsets = spikes.bounds()
+    for first, stop in unit_blocks(offsets, max_items=block_spikes):
+        lo, hi = offsets[first], offsets[stop]
+        window = window_index(spikes.times[lo:hi], start_s=start_s, window_s=window_s)
+        inside = (window >= 0) & (window < n_windows)
+        key = spikes.codes[lo:hi][inside] * np.int64(n_windows) + window[inside]
+        if len(key) == 0:
+            continue
+        starts = np.flatnonzero(np.concatenate([[True], key[1:] != key[:-1]]))
+        counts = np.diff(np.concatenate([starts, [len(key)]])).astype(float)
+        unit_of_run = key[starts] // n_windows
+        s1 += np.bincount(unit_of_run, weights=counts, minlength=n_units)
+        s2 += np.bincount(unit_of_run, weights=counts**2, minlength=n_units)
     return s1, s2
 
 

@@ -36,10 +36,16 @@ class SlidingWindows:
 
 def trial_counts(times: np.ndarray, events: np.ndarray, left_edges: np.ndarray,
                  width_s: float) -> np.ndarray:
-    """Counts of one unit's sorted ``times`` in ``[e + l, e + l + width)``: (events, windows)."""
-    lo = events[:, None] + left_edges[None, :]
-    hi = lo + width_s
-    return np.searchsorted(times, hi, side="left") - np.searchsorted(times, lo, side="left")
+    """Counts of one unit's sorted ``times`` in ``[e + l, e + (l + width))``: (events, windows).
+
+    Left and right window edges are merged into one sorted set of offsets, so overlapping
+    sliding windows share their binary searches.
+    """
+    offsets, inverse = np.unique(np.concatenate([left_edges, left_edges + width_s]),
+                                 return_inverse=True)
+    cumulative = np.searchsorted(times, events[:, None] + offsets[None, :], side="left")
+    n = len(left_edges)
+    return cumulative[:, inverse[n:]] - cumulative[:, inverse[:n]]
 
 
 def fano_timecourse_table(

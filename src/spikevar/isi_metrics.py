@@ -1,7 +1,8 @@
 """Per-unit interval statistics over a whole recording, vectorised over all units at once.
 
-All functions take :class:`~spikevar.spike_arrays.SpikeArrays` (sorted by unit then time) and
-compute every unit in one pass with ``np.bincount``; there is no loop over spikes or units.
+All functions take :class:`~spikevar.spike_arrays.SpikeArrays` (sorted by unit then time). Units
+are processed in blocks of about two million spikes (bounding memory), and within a block every
+unit at once with segment sums (``np.add.reduceat``); there is no loop over spikes.
 """
 
 from __future__ import annotations
@@ -9,28 +10,48 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
+from spikevar.segments import drop_boundaries, segment_sums, unit_blocks
 from spikevar.spike_arrays import SpikeArrays
 
 REASON_FEW_SPIKES = "fewer than 3 spikes"
 REASON_ZERO_DURATION = "zero-length recording"
 
 
-def _pairs(spikes: SpikeArrays):
-    """ISIs with their unit code, and consecutive-ISI pairs with theirs."""
-    same = spikes.codes[1:] == spikes.codes[:-1]
-    isi = np.diff(spikes.times)[same]
-    isi_unit = spikes.codes[1:][same]
-    pair_same = isi_unit[1:] == isi_unit[:-1]
-    a, b = isi[:-1][pair_same], isi[1:][pair_same]
-    pair_unit = isi_unit[1:][pair_same]
-    return isi, isi_unit, a, b, pair_unit
-
-
-def _per_unit_mean(values, codes, n_units):
-    count = np.bincount(codes, minlength=n_units).astype(float)
-    total = np.bincount(codes, weights=values, minlength=n_units)
+def _block_sums(times: np.ndarray, offsets: np.ndarray, *, lvr_refractory_s: float,
+                refractory_threshold_s: float) -> dict[str, np.ndarray]:
+    """Per-unit sums needed by the ISI measures, for one block of whole units."""
+    isi, isi_off = drop_boundaries(np.diff(times), offsets)
+    n_isi = np.diff(isi_off).astype(float)
     with np.errstate(invalid="ignore", divide="ignore"):
-        return total / count, count
+        mean = segment_sums(isi, isi_off) / n_isi
+    dev = isi - np.repeat(np.nan_to_num(mean), np.diff(isi_off))
+    sq_dev = segment_sums(dev * dev, isi_off)
+    violations = segment_sums((isi < refractory_threshold_s).astype(float), isi_off)
+    # consecutive pairs (I_i, I_{i+1}) inside each unit: a unit with m ISIs has m - 1 pairs
+    pair_off = np.concatenate([[0], np.cumsum(np.maximum(np.diff(isi_off) - 1, 0))])
+    breaks = _pair_breaks(isi_off)
+    a = np.delete(isi[:-1], breaks) if len(isi) > 1 else np.zeros(0)
+    b = np.delete(isi[1:], breaks) if len(isi) > 1 else np.zeros(0)
+    total = a + b
+    ok = total > 0
+    with np.errstate(invalid="ignore", divide="ignore"):
+        cv2_terms = np.where(ok, 2 * np.abs(b - a) / total, 0.0)
+        lv_terms = np.where(ok, ((a - b) / total) ** 2, 0.0)
+        lvr_terms = np.where(ok, (1 - 4 * a * b / total**2) * (1 + 4 * lvr_refractory_s / total),
+                             0.0)
+    return {
+        "n_isi": n_isi, "mean_isi": mean, "sq_dev": sq_dev, "violations": violations,
+        "n_pairs": segment_sums(ok.astype(float), pair_off),
+        "cv2_sum": segment_sums(cv2_terms, pair_off),
+        "lv_sum": segment_sums(lv_terms, pair_off),
+        "lvr_sum": segment_sums(lvr_terms, pair_off),
+    }
+
+
+def _pair_breaks(isi_off: np.ndarray) -> np.ndarray:
+    """Positions in ``isi[:-1]`` whose pair (i, i + 1) straddles two units."""
+    inner = isi_off[1:-1]
+    return inner[(inner > 0) & (inner < isi_off[-1])] - 1
 
 
 def hill_contamination(*, n_violations, n_spikes, duration_s, refractory_s, censored_s=0.0):
@@ -108,25 +129,24 @@ def unit_isi_table(
       zero ISIs has an undefined ratio and is left out of CV2/LV/LvR.
     """
     n_units = spikes.n_units
-    n_spikes = np.bincount(spikes.codes, minlength=n_units)
-    isi, isi_unit, a, b, pair_unit = _pairs(spikes)
-    mean_isi, n_isi = _per_unit_mean(isi, isi_unit, n_units)
-    sq, _ = _per_unit_mean(isi**2, isi_unit, n_units)
+    offsets = spikes.bounds()
+    n_spikes = np.diff(offsets)
+    parts = []
+    for first, stop in unit_blocks(offsets):
+        lo, hi = offsets[first], offsets[stop]
+        parts.append(_block_sums(spikes.times[lo:hi], offsets[first:stop + 1] - lo,
+                                 lvr_refractory_s=lvr_refractory_s,
+                                 refractory_threshold_s=refractory_threshold_s))
+    sums = {key: np.concatenate([p[key] for p in parts]) if parts else np.zeros(0)
+            for key in ("n_isi", "mean_isi", "sq_dev", "violations", "n_pairs", "cv2_sum",
+                        "lv_sum", "lvr_sum")}
+    n_isi, mean_isi, n_pairs = sums["n_isi"], sums["mean_isi"], sums["n_pairs"]
+    violations = sums["violations"]
     with np.errstate(invalid="ignore", divide="ignore"):
-        var = (sq - mean_isi**2) * n_isi / (n_isi - 1)
-        cv = np.sqrt(np.maximum(var, 0.0)) / mean_isi
-        total = a + b
-        ok = total > 0
-        pa_, pb, pu, pt = a[ok], b[ok], pair_unit[ok], total[ok]
-        cv2, _ = _per_unit_mean(2 * np.abs(pb - pa_) / pt, pu, n_units)
-        lv_sum = np.bincount(pu, weights=((pa_ - pb) / pt) ** 2, minlength=n_units)
-        lvr_terms = (1 - 4 * pa_ * pb / pt**2) * (1 + 4 * lvr_refractory_s / pt)
-        lvr_sum = np.bincount(pu, weights=lvr_terms, minlength=n_units)
-        n_pairs = np.bincount(pu, minlength=n_units).astype(float)
-        lv = 3 * lv_sum / n_pairs
-        lvr = 3 * lvr_sum / n_pairs
-        violations = np.bincount(isi_unit, weights=(isi < refractory_threshold_s),
-                                 minlength=n_units)
+        cv = np.sqrt(sums["sq_dev"] / (n_isi - 1)) / mean_isi
+        cv2 = sums["cv2_sum"] / n_pairs
+        lv = 3 * sums["lv_sum"] / n_pairs
+        lvr = 3 * sums["lvr_sum"] / n_pairs
         violation_fraction = violations / n_isi
     few = n_spikes < 3
     for arr in (cv, cv2, lv, lvr, mean_isi):
