@@ -19,6 +19,7 @@ validate(config, str(REPO / "workflow" / "schemas" / "config.schema.yaml"))
 include: "workflow/rules/common.smk"
 include: "workflow/rules/ingest.smk"
 include: "workflow/rules/metrics.smk"
+include: "workflow/rules/recovery.smk"
 
 
 rule all:
@@ -26,6 +27,7 @@ rule all:
         expand(
             f"{RESULTS}/sessions/{{session}}/{{table}}.parquet",
             session=SESSIONS,
-            table=["units", "count_fano", "fano_timecourse"],
+            table=["units", "count_fano", "fano_timecourse", "recovery"],
         ),
+        expand(f"{RESULTS}/figures/sessions/{{session}}_recovery.png", session=SESSIONS),
     default_target: True

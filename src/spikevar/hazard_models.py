@@ -114,3 +114,30 @@ def exp_recovery_inverse_cumulative_hazard(y, *, asymptotic_rate_hz, tau_s, dead
         step = np.where(h > 0, (r * g - y) / np.where(h > 0, h, 1.0), 0.0)
         u = np.maximum(u - step, 0.0)
     return d + u
+
+
+def exp_recovery_mean_isi(asymptotic_rate_hz, *, tau_s, dead_time_s=0.0):
+    """Mean ISI in closed form, vectorised over the rate: ``d + tau e^a a^-a gamma(a, a)``.
+
+    ``a = r_inf tau`` and ``gamma`` is the lower incomplete gamma function (evaluated in logs so
+    large ``a`` does not overflow). As ``tau -> 0`` it tends to ``d + 1 / r_inf``.
+    """
+    r = np.asarray(asymptotic_rate_hz, dtype=float)
+    if tau_s <= 0:
+        return dead_time_s + 1.0 / r
+    a = r * tau_s
+    log_mean_u = (np.log(tau_s) + a - a * np.log(a) + special.gammaln(a)
+                  + np.log(special.gammainc(a, a)))
+    return dead_time_s + np.exp(log_mean_u)
+
+
+def exp_recovery_free_rate(output_rate_hz, *, tau_s, dead_time_s=0.0):
+    """Invert :func:`exp_recovery_mean_isi`: the asymptotic rate giving a mean output rate.
+
+    Output rates at or above the model's ceiling ``1 / d`` map to NaN.
+    """
+    rho = np.asarray(output_rate_hz, dtype=float)
+    table_r = np.logspace(-3, 6, 2000)
+    table_rho = 1.0 / exp_recovery_mean_isi(table_r, tau_s=tau_s, dead_time_s=dead_time_s)
+    out = np.interp(np.log(rho), np.log(table_rho), np.log(table_r), left=np.nan, right=np.nan)
+    return np.exp(out)

@@ -67,7 +67,8 @@ def compute_tables(spikes: SpikeArrays, events: pd.DataFrame, *, settings: Metri
     return {"units": units, "count_fano": counts, "fano_timecourse": timecourse}
 
 
-def _to_arrow(frame: pd.DataFrame) -> pa.Table:
+def to_arrow(frame: pd.DataFrame) -> pa.Table:
+    """pandas -> Arrow with text columns as string (also for all-empty columns)."""
     table = pa.Table.from_pandas(frame, preserve_index=False)
     fields = [pa.field(f.name, pa.string()) if pa.types.is_null(f.type) or
               pa.types.is_large_string(f.type) else f for f in table.schema]
@@ -83,7 +84,7 @@ def run_session_metrics(*, session: str, spikes_path, events_path, outputs: dict
     meta = {"session": session, "settings": asdict(settings), "duration_s": duration_s}
     for name, frame in tables.items():
         frame.insert(0, "session", session)
-        write_parquet_atomic(_to_arrow(frame), Path(outputs[name]), metadata=meta)
+        write_parquet_atomic(to_arrow(frame), Path(outputs[name]), metadata=meta)
     few = int((tables["units"]["isi_reason"] != "").sum())
     log.info("session %s: %d units (%d without ISI metrics), %d count rows, %d timecourse rows",
              session, len(tables["units"]), few, len(tables["count_fano"]),

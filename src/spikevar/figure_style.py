@@ -1,0 +1,42 @@
+"""spikevar's own figure look: colours chosen to stay distinct for colour-blind readers and in
+greyscale (each series also differs by line style or marker), light grid, no top/right spines."""
+
+from __future__ import annotations
+
+import matplotlib
+
+matplotlib.use("Agg")
+
+import matplotlib.pyplot as plt  # noqa: E402
+
+INK = "#26323d"
+#: group / condition colours: dark slate blue, amber, teal, plum (differ in lightness too)
+SERIES = ["#2b4f81", "#d98c1f", "#2f8f83", "#8c4a86", "#6b7a8f"]
+MODEL_STYLE = {
+    "poisson": {"color": "#6b7a8f", "linestyle": ":", "label": "Poisson"},
+    "dead_time": {"color": "#d98c1f", "linestyle": "--", "label": "dead time"},
+    "exp_recovery": {"color": "#2b4f81", "linestyle": "-", "label": "exponential recovery"},
+}
+MARKERS = ["o", "s", "^", "D", "v"]
+
+
+def apply_style() -> None:
+    """Set the rc parameters once per figure-drawing process."""
+    plt.rcParams.update({
+        "figure.dpi": 110, "savefig.dpi": 150, "font.size": 9, "axes.titlesize": 10,
+        "axes.labelsize": 9, "axes.edgecolor": INK, "axes.labelcolor": INK, "text.color": INK,
+        "xtick.color": INK, "ytick.color": INK, "axes.spines.top": False,
+        "axes.spines.right": False, "axes.grid": True, "grid.color": "#e3e7ec",
+        "grid.linewidth": 0.6, "legend.frameon": False, "svg.fonttype": "none",
+    })
+
+
+def save(fig, path) -> None:
+    """Save as PNG and, next to it, SVG; close the figure."""
+    from pathlib import Path
+
+    path = Path(path)
+    path.parent.mkdir(parents=True, exist_ok=True)
+    fig.savefig(path, bbox_inches="tight")
+    fig.savefig(path.with_suffix(".svg"), bbox_inches="tight")
+    plt.close(fig)

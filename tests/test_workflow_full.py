@@ -1,0 +1,62 @@
+"""The whole pipeline through Snakemake on a tiny cohort: tables written, read back, figures."""
+
+import shutil
+
+import pandas as pd
+import pyarrow.parquet as pq
+import pytest
+
+from conftest import run_snakemake
+
+pytestmark = pytest.mark.workflow
+
+
+@pytest.fixture(scope="module")
+def full_run(tiny_cohort, tmp_path_factory):
+    work = tmp_path_factory.mktemp("full")
+    cohort = work / "cohort"
+    shutil.copytree(tiny_cohort.parent, cohort)
+    sheet = pd.read_csv(cohort / "sessions.tsv", sep="\t", dtype=str, keep_default_na=False)
+    sheet.loc[1, "events"] = ""  # one session without events
+    sheet.to_csv(cohort / "sessions.tsv", sep="\t", index=False)
+    proc = run_snakemake(work, "--config", f"sessions={cohort / 'sessions.tsv'}", "results=out")
+    return work / "out", sheet, proc
+
+
+def test_metric_tables_per_session(full_run):
+    out, sheet, _ = full_run
+    no_events = sheet.loc[1, "session"]
+    for session in sheet["session"]:
+        folder = out / "sessions" / session
+        units = pq.read_table(folder / "units.parquet").to_pandas()
+        for column in ("session", "unit", "n_spikes", "duration_s", "rate_hz", "isi_cv",
+                       "isi_cv2", "isi_lv", "isi_lvr", "refractory_violation_fraction"):
+            assert column in units.columns
+        assert (units["session"] == session).all()
+        assert len(units) == 3
+        counts = pq.read_table(folder / "count_fano.parquet").to_pandas()
+        assert sorted(counts["window_s"].unique()) == [0.01, 0.02, 0.05, 0.1, 0.2, 0.5, 1.0, 2.0]
+        assert {"fano", "fano_lo", "fano_hi", "n_windows"} <= set(counts.columns)
+        timecourse = pq.read_table(folder / "fano_timecourse.parquet")
+        assert {"condition", "time_s", "n_trials", "mean_count", "var_count", "fano"} <= \
+            set(timecourse.schema.names)
+        if session == no_events:
+            assert timecourse.num_rows == 0
+        else:
+            assert timecourse.num_rows == 3 * 2 * 57
+
+
+def test_recovery_table_and_figures(full_run):
+    out, sheet, _ = full_run
+    for session in sheet["session"]:
+        rec = pq.read_table(out / "sessions" / session / "recovery.parquet").to_pandas()
+        for column in ("unit", "model", "asymptotic_rate_hz", "recovery_tau_s", "dead_time_s",
+                       "tau_ci_lo", "tau_ci_hi", "log_likelihood", "aic", "ks_stat",
+                       "ks_pvalue", "n_intervals", "converged", "preferred"):
+            assert column in rec.columns
+        assert set(rec["model"]) == {"poisson", "dead_time", "exp_recovery"}
+        assert (rec.groupby("unit")["preferred"].sum() == 1).all()
+        png = out / "figures" / "sessions" / f"{session}_recovery.png"
+        assert png.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+        assert png.stat().st_size > 20_000
+        assert png.with_suffix(".svg").exists()
