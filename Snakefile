@@ -1,4 +1,5 @@
 # spikevar workflow: wiring only. All computation lives in src/spikevar; see DEVELOPERS.md.
+import os
 import sys
 from pathlib import Path
 
@@ -8,6 +9,9 @@ min_version("9.0")
 
 REPO = Path(workflow.basedir)
 sys.path.insert(0, str(REPO / "src"))
+# each job uses one core; multi-threaded BLAS in parallel jobs only oversubscribes the machine
+os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")
+os.environ.setdefault("OMP_NUM_THREADS", "1")
 
 
 configfile: str(REPO / "config" / "config.yaml")

@@ -8,14 +8,18 @@ spike arrays, and the ratio against the straightforward per-unit/per-trial refer
 Run: .venv/bin/python bench/bench_metrics.py [--units 400] [--hours 1]
 """
 
-import argparse
-import sys
-import time
-import tracemalloc
-from pathlib import Path
+import os
 
-import numpy as np
-import pandas as pd
+os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")  # one core
+
+import argparse  # noqa: E402
+import sys  # noqa: E402
+import time  # noqa: E402
+import tracemalloc  # noqa: E402
+from pathlib import Path  # noqa: E402
+
+import numpy as np  # noqa: E402
+import pandas as pd  # noqa: E402
 
 sys.path.insert(0, str(Path(__file__).resolve().parent))
 from naive_reference import naive_tables  # noqa: E402

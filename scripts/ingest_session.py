@@ -1,7 +1,12 @@
 """Rule ingest_session: raw spike/event tables of one session -> normalised Parquet."""
 
+import os
 import sys
 from pathlib import Path
+
+# one job = one core: keep BLAS single-threaded (set before numpy is imported)
+os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")
+os.environ.setdefault("OMP_NUM_THREADS", "1")
 
 sys.path.insert(0, str(Path(snakemake.scriptdir).parent / "src"))  # noqa: F821
 

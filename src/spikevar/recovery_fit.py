@@ -78,12 +78,13 @@ def _recovery_terms(iv: Intervals, tau: float, d: float):
     e = np.exp(-x)
     one_minus_e = -np.expm1(-x)
     G = u - tau * one_minus_e
-    D = float(w @ G)
-    dD_tau = float(w @ (-one_minus_e + x * e))
-    dD_d = float(-(w @ one_minus_e))
-    with np.errstate(divide="ignore"):
+    # plain sums, not BLAS dot products: exact-order summation and no thread start-up per call
+    D = float((w * G).sum())
+    dD_tau = float((w * (x * e - one_minus_e)).sum())
+    dD_d = float(-(w * one_minus_e).sum())
+    with np.errstate(divide="ignore", invalid="ignore"):
         L = float(np.log(one_minus_e).sum())
-        inv = 1.0 / np.expm1(x)  # e / (1 - e)
+        inv = e / one_minus_e
     dL_tau = float(-(inv * x).sum() / tau)
     dL_d = float(-inv.sum() / tau)
     far_w = iv._cw[-1] - iv._cw[k]
@@ -197,36 +198,63 @@ def fit_exp_recovery(iv: Intervals, *, with_interval: bool = True) -> Fit:
     fit = Fit("exp_recovery", rate_hz=iv.n / D, tau_s=tau, dead_time_s=d, log_likelihood=ll,
               converged=converged, note=note if res.success else f"optimiser: {res.message}")
     if with_interval and converged:
-        fit.tau_ci = profile_tau_interval(iv, tau_hat=tau, loglik_hat=ll)
+        fit.tau_ci = profile_tau_interval(iv, tau_hat=tau, loglik_hat=ll, d_hat=d)
     return fit
 
 
-def _profile_over_d(iv: Intervals, tau: float) -> float:
-    """``max_d loglik(tau, d)`` over ``0 <= d < min_isi``."""
-    res = optimize.minimize_scalar(lambda f: -exp_recovery_profile_loglik(iv, tau,
-                                                                           f * iv.min_isi),
-                                   bounds=(0.0, 1.0 - 1e-6), method="bounded",
-                                   options={"xatol": 1e-4})
-    return -float(res.fun)
+def _profile_over_d(iv: Intervals, tau: float, d_start: float) -> tuple[float, float]:
+    """``max_d loglik(tau, d)`` over ``0 <= d < min_isi`` (1-D L-BFGS-B, warm-started).
+
+    Returns the maximum and the maximising ``d``.
+    """
+    def negative(frac):
+        value, grad = _neg_loglik_and_grad(np.array([np.log(tau), frac[0]]), iv)
+        return value, grad[1:]
+
+    start = np.clip(d_start / iv.min_isi, 0.0, 1.0 - 1e-6)
+    res = optimize.minimize(negative, np.array([start]), jac=True, method="L-BFGS-B",
+                            bounds=[(0.0, 1.0 - 1e-6)], options={"ftol": 1e-12, "gtol": 1e-8})
+    return -float(res.fun), float(res.x[0] * iv.min_isi)
 
 
-def profile_tau_interval(iv: Intervals, *, tau_hat: float, loglik_hat: float):
-    """95% profile-likelihood interval for ``tau`` (drop of chi2_1(0.95)/2 = 1.92)."""
+def profile_tau_interval(iv: Intervals, *, tau_hat: float, loglik_hat: float,
+                         d_hat: float | None = None):
+    """95% profile-likelihood interval for ``tau`` (drop of chi2_1(0.95)/2 = 1.92).
+
+    Each end is bracketed by steps in ``log tau`` sized from the curvature seen in a first small
+    step, then located by Brent's method; ``d`` is re-maximised at every ``tau`` (warm start).
+    An end that reaches the ``tau`` bounds is reported as 0 (lower) or inf (upper).
+    """
     lo, hi = _tau_bounds(iv)
     target = loglik_hat - CHI2_95_HALF
+    x_hat = np.log(tau_hat)
+    d_now = {"d": iv.min_isi * 0.5 if d_hat is None else d_hat}
 
     def excess(log_tau):
-        return _profile_over_d(iv, float(np.exp(log_tau))) - target
+        value, d_now["d"] = _profile_over_d(iv, float(np.exp(log_tau)), d_now["d"])
+        return value - target
 
     ends = []
-    for edge, fallback in ((np.log(lo), 0.0), (np.log(hi), np.inf)):
-        if excess(edge) > 0:
+    for direction, edge, fallback in ((-1, np.log(lo), 0.0), (1, np.log(hi), np.inf)):
+        d_now["d"] = iv.min_isi * 0.5 if d_hat is None else d_hat
+        inner, step = x_hat, 0.05
+        outer = np.clip(x_hat + direction * step, np.log(lo), np.log(hi))
+        f_outer = excess(outer)
+        if f_outer > 0:
+            drop = max(CHI2_95_HALF - f_outer, 1e-6)
+            step = min(step * np.sqrt(CHI2_95_HALF / drop) * 1.25, 50.0)
+        while f_outer > 0:
+            if outer == edge:
+                break
+            inner = outer
+            outer = float(np.clip(x_hat + direction * step, np.log(lo), np.log(hi)))
+            f_outer = excess(outer)
+            step *= 2
+        if f_outer > 0:
             ends.append(fallback)
             continue
-        root = optimize.brentq(excess, edge, np.log(tau_hat), xtol=1e-4) \
-            if edge < np.log(tau_hat) else optimize.brentq(excess, np.log(tau_hat), edge,
-                                                             xtol=1e-4)
-        ends.append(float(np.exp(root)))
+        a, b = sorted((inner, outer))
+        ends.append(float(np.exp(optimize.brentq(excess, a, b, xtol=1e-3))))
     return ends[0], ends[1]
 
 
@@ -300,5 +328,6 @@ def fit_exp_recovery_modulated(times: np.ndarray, *, span_s: tuple[float, float]
             break
     fit.model = "exp_recovery"
     if with_interval and fit.converged:
-        fit.tau_ci = profile_tau_interval(iv, tau_hat=fit.tau_s, loglik_hat=fit.log_likelihood)
+        fit.tau_ci = profile_tau_interval(iv, tau_hat=fit.tau_s, loglik_hat=fit.log_likelihood,
+                                          d_hat=fit.dead_time_s)
     return fit, iv
