@@ -24,6 +24,8 @@ include: "workflow/rules/common.smk"
 include: "workflow/rules/ingest.smk"
 include: "workflow/rules/metrics.smk"
 include: "workflow/rules/recovery.smk"
+include: "workflow/rules/cohort.smk"
+include: "workflow/rules/figures.smk"
 
 
 rule all:
@@ -34,4 +36,6 @@ rule all:
             table=["units", "count_fano", "fano_timecourse", "recovery"],
         ),
         expand(f"{RESULTS}/figures/sessions/{{session}}_recovery.png", session=SESSIONS),
+        expand(f"{RESULTS}/figures/{{figure}}.png", figure=COHORT_FIGURES),
+        f"{RESULTS}/datapackage.json",
     default_target: True

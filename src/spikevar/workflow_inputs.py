@@ -35,3 +35,18 @@ def recording_duration(sheet: pd.DataFrame, session: str) -> float | None:
     """Declared recording length in seconds, or None to use the spike span."""
     value = float(sheet.loc[session, "duration_s"])
     return None if math.isnan(value) else value
+
+
+def cohort_metadata(sheet: pd.DataFrame) -> dict:
+    """Sheet metadata joined into cohort tables: column order and one dict per session."""
+    from spikevar.sheet import metadata_columns
+
+    columns = metadata_columns(sheet)
+    rows = {s: {c: str(sheet.loc[s, c]) for c in columns} for s in sheet.index}
+    return {"columns": columns, "rows": rows}
+
+
+def sheet_records(sheet: pd.DataFrame) -> list[dict]:
+    """The checked sheet as plain records (for the manifest)."""
+    return [{k: (None if isinstance(v, float) and math.isnan(v) else v)
+             for k, v in row.items()} for row in sheet.reset_index(drop=True).to_dict("records")]

@@ -4,7 +4,13 @@ from snakemake.exceptions import WorkflowError
 from spikevar.errors import SpikevarInputError
 from spikevar.provenance import code_fingerprint
 from spikevar.sheet import load_sheet
-from spikevar.workflow_inputs import ingest_inputs, ingest_settings, recording_duration
+from spikevar.workflow_inputs import (
+    cohort_metadata,
+    ingest_inputs,
+    ingest_settings,
+    recording_duration,
+    sheet_records,
+)
 
 RESULTS = config["results"].rstrip("/")
 try:

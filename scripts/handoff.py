@@ -1,0 +1,26 @@
+"""Rule handoff: data dictionary, datapackage.json, manifest and the failed_sessions table."""
+
+import os
+import sys
+from pathlib import Path
+
+# one job = one core: keep BLAS single-threaded (set before numpy is imported)
+os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")
+os.environ.setdefault("OMP_NUM_THREADS", "1")
+
+sys.path.insert(0, str(Path(snakemake.scriptdir).parent / "src"))  # noqa: F821
+
+from spikevar import handoff  # noqa: E402
+from spikevar.cohort_run import write_failed_sessions  # noqa: E402
+from spikevar.jobs import rule_job  # noqa: E402
+
+sm = snakemake  # noqa: F821
+with rule_job(sm.log[0], name="handoff"):
+    write_failed_sessions([], sm.output.failed)
+    tables = {Path(p).stem: p for p in [*sm.input.tables, sm.output.failed]}
+    handoff.write_data_dictionary(tables, markdown=Path(sm.output.dictionary_md),
+                                  json_path=Path(sm.output.dictionary_json))
+    handoff.write_datapackage(tables, root=Path(sm.params.results),
+                              path=Path(sm.output.datapackage))
+    handoff.write_manifest(sheet=sm.params.sheet, config=dict(sm.params.config),
+                           repo=Path(sm.params.repo), path=Path(sm.output.manifest))

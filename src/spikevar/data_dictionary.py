@@ -1,0 +1,168 @@
+"""Description of every column of every table spikevar hands over (the one source of truth).
+
+Each entry: column -> (meaning, unit, method / reference). Metadata columns from the sessions
+sheet (``session``, ``subject``, ``group`` and any extra column) lead every cohort table.
+"""
+
+from __future__ import annotations
+
+META = {
+    "session": ("session id from the sessions sheet", "", ""),
+    "subject": ("animal / participant id", "", ""),
+    "group": ("between-subject group from the sheet (default 'all')", "", ""),
+}
+EXTRA_META = ("any other sheet column, carried as text", "", "")
+
+HOLT = "Holt et al. 1996, J Neurophysiol 75:1806"
+SHIN03 = "Shinomoto et al. 2003, Neural Comput 15:2823"
+SHIN09 = "Shinomoto et al. 2009, PLoS Comput Biol 5:e1000433"
+EDEN = "Eden & Kramer 2010, J Neurosci Methods 190:149"
+BROWN = "Brown et al. 2002, Neural Comput 14:325"
+CHURCH = "Churchland et al. 2010, Nat Neurosci 13:369"
+SARAV = "Saravanan, Berman & Sober 2020, Neurons Behav Data Anal Theory 3(5)"
+
+TABLES: dict[str, dict[str, tuple[str, str, str]]] = {
+    "units": {
+        "unit": ("unit id (text)", "", ""),
+        "n_spikes": ("number of spikes", "count", ""),
+        "duration_s": ("recording length used for rates", "s", "sheet duration_s, else spike span"),
+        "rate_hz": ("mean firing rate", "Hz", "n_spikes / duration_s"),
+        "mean_isi_s": ("mean inter-spike interval", "s", ""),
+        "isi_cv": ("coefficient of variation of ISIs (ddof = 1)", "", "Cox 1962"),
+        "isi_cv2": ("mean local CV of consecutive ISI pairs", "", HOLT),
+        "isi_lv": ("local variation of ISIs", "", SHIN03),
+        "isi_lvr": ("revised local variation, refractoriness constant R", "", SHIN09),
+        "refractory_violation_fraction": ("fraction of ISIs below the refractory threshold", "",
+                                          "config metrics.refractory_threshold_s"),
+        "n_refractory_violations": ("ISIs below the refractory threshold", "count", ""),
+        "contamination_hill": ("estimated fraction of spikes from other neurons", "",
+                               "Hill, Mehta & Kleinfeld 2011, J Neurosci 31:8699"),
+        "contamination_flag": ("why contamination_hill is NaN ('' if defined)", "", ""),
+        "fano_longest_window_s": ("longest counting window", "s", ""),
+        "fano_to_cv2": ("count Fano factor at the longest window / isi_cv^2 (about 1 for a "
+                        "stationary renewal train)", "", "Cox 1962"),
+        "isi_reason": ("why ISI measures are NaN ('' if defined)", "", ""),
+    },
+    "count_fano": {
+        "unit": ("unit id", "", ""),
+        "window_s": ("counting window", "s", "non-overlapping windows over the recording"),
+        "n_windows": ("number of complete windows", "count", ""),
+        "mean_count": ("mean spike count per window", "count", ""),
+        "var_count": ("variance of the count (ddof = 1)", "count^2", ""),
+        "fano": ("Fano factor var_count / mean_count", "", ""),
+        "fano_lo": ("2.5% point of the Fano factor of n_windows Poisson counts", "", EDEN),
+        "fano_hi": ("97.5% point of the Fano factor of n_windows Poisson counts", "", EDEN),
+        "fano_reason": ("why fano is NaN ('' if defined)", "", ""),
+    },
+    "fano_timecourse": {
+        "unit": ("unit id", "", ""),
+        "condition": ("event condition", "", ""),
+        "time_s": ("window centre relative to the event", "s", ""),
+        "window_s": ("window width", "s", ""),
+        "n_trials": ("trials whose windows lie inside the recording", "count", ""),
+        "n_trials_dropped": ("trials dropped because a window left the recording", "count", ""),
+        "mean_count": ("mean count across trials", "count", ""),
+        "var_count": ("variance across trials (ddof = 1)", "count^2", ""),
+        "fano": ("Fano factor across trials", "", ""),
+        "rate_hz": ("PSTH rate mean_count / window_s", "Hz", ""),
+        "fano_reason": ("why fano is NaN ('' if defined)", "", ""),
+    },
+    "recovery": {
+        "unit": ("unit id", "", ""),
+        "model": ("poisson, dead_time or exp_recovery", "", ""),
+        "fit_kind": ("stationary, or slow_rate_modulated (rate x own slow rate)", "",
+                     "Berry & Meister 1998; Kass & Ventura 2001"),
+        "asymptotic_rate_hz": ("rate after full recovery (r_inf)", "Hz", "maximum likelihood"),
+        "recovery_tau_s": ("recovery time constant tau", "s", "maximum likelihood"),
+        "dead_time_s": ("dead time d", "s", "threshold MLE (Smith 1985, Biometrika 72:67)"),
+        "tau_ci_lo": ("95% profile-likelihood interval of tau, lower end", "s", ""),
+        "tau_ci_hi": ("95% profile-likelihood interval of tau, upper end", "s", ""),
+        "log_likelihood": ("maximised log-likelihood", "", ""),
+        "aic": ("Akaike information criterion 2k - 2 log L", "", ""),
+        "ks_stat": ("KS distance of time-rescaled intervals from uniform", "", BROWN),
+        "ks_pvalue": ("KS p-value (conservative: parameters fitted on the same data)", "", ""),
+        "ks_band_95": ("95% KS band 1.36 / sqrt(n)", "", BROWN),
+        "n_intervals": ("uncensored intervals fitted", "count", ""),
+        "converged": ("the fit converged inside its bounds", "", ""),
+        "preferred": ("lowest AIC among converged stationary models of the unit", "", ""),
+        "fit_note": ("remarks: bounds reached, too few intervals, optimiser message", "", ""),
+    },
+    "population_fano": {
+        "condition": ("event condition", "", ""),
+        "time_s": ("window centre relative to the event", "s", ""),
+        "window_s": ("window width", "s", ""),
+        "n_units": ("units with a defined mean and variance in the window", "count", ""),
+        "mean_count": ("mean across units of the mean count", "count", ""),
+        "fano_regression": ("slope of count variance on mean across units, through 0", "", ""),
+        "regression_ci_lo": ("95% interval of fano_regression, units resampled", "", ""),
+        "regression_ci_hi": ("95% interval of fano_regression, units resampled", "", ""),
+        "fano_mean_matched": ("mean-matched Fano factor", "", CHURCH),
+        "ci_lo": ("95% interval of fano_mean_matched, units resampled", "", ""),
+        "ci_hi": ("95% interval of fano_mean_matched, units resampled", "", ""),
+        "n_units_matched": ("units kept by mean matching per window", "count", CHURCH),
+        "population_reason": ("why values are NaN ('' if defined)", "", ""),
+    },
+    "group_summary": {
+        "metric": ("unit metric summarised", "", ""),
+        "metric_label": ("readable metric name with unit", "", ""),
+        "n_units": ("units with a value", "count", ""),
+        "n_sessions": ("sessions contributing", "count", ""),
+        "n_subjects": ("subjects contributing", "count", ""),
+        "mean": ("mean over units", "metric's unit", ""),
+        "mean_ci_lo": ("95% hierarchical-bootstrap interval of the mean", "metric's unit", SARAV),
+        "mean_ci_hi": ("95% hierarchical-bootstrap interval of the mean", "metric's unit", SARAV),
+        "median": ("median over units", "metric's unit", ""),
+        "median_ci_lo": ("95% hierarchical-bootstrap interval of the median", "metric's unit",
+                         SARAV),
+        "median_ci_hi": ("95% hierarchical-bootstrap interval of the median", "metric's unit",
+                         SARAV),
+        "summary_reason": ("caveat or why values are NaN", "", ""),
+    },
+    "group_differences": {
+        "metric": ("unit metric compared", "", ""),
+        "group_a": ("first group", "", ""),
+        "group_b": ("second group", "", ""),
+        "diff_mean": ("mean(a) - mean(b)", "metric's unit", ""),
+        "diff_mean_ci_lo": ("95% hierarchical-bootstrap interval", "metric's unit", SARAV),
+        "diff_mean_ci_hi": ("95% hierarchical-bootstrap interval", "metric's unit", SARAV),
+        "p_mean": ("two-sided bootstrap p-value of diff_mean", "", SARAV),
+        "diff_median": ("median(a) - median(b)", "metric's unit", ""),
+        "diff_median_ci_lo": ("95% hierarchical-bootstrap interval", "metric's unit", SARAV),
+        "diff_median_ci_hi": ("95% hierarchical-bootstrap interval", "metric's unit", SARAV),
+        "p_median": ("two-sided bootstrap p-value of diff_median", "", SARAV),
+        "difference_reason": ("why values are NaN ('' if defined)", "", ""),
+    },
+    "failed_sessions": {
+        "session": ("session that failed", "", ""),
+        "rule": ("the step that failed", "", ""),
+        "reason": ("the error message", "", ""),
+    },
+}
+
+#: tables that carry the sheet metadata columns in front
+WITH_META = ("units", "count_fano", "fano_timecourse", "recovery")
+#: tables that carry only ``group`` in front
+WITH_GROUP = ("population_fano", "group_summary")
+
+
+def describe(table: str, column: str) -> tuple[str, str, str]:
+    """Meaning, unit and method of a column (sheet metadata included)."""
+    if column in TABLES.get(table, {}):
+        return TABLES[table][column]
+    if column in META:
+        return META[column]
+    return EXTRA_META
+
+
+def to_markdown(columns_by_table: dict[str, list[str]]) -> str:
+    """The data dictionary as Markdown, for the tables and columns actually written."""
+    lines = ["# spikevar data dictionary", "",
+             "Every column of every table in `cohort/`. Units: s = seconds, Hz = 1/s.", ""]
+    for table, columns in columns_by_table.items():
+        lines += [f"## {table}", "", "| column | meaning | unit | method / reference |",
+                  "|---|---|---|---|"]
+        for column in columns:
+            meaning, unit, method = describe(table, column)
+            lines.append(f"| `{column}` | {meaning} | {unit} | {method} |")
+        lines.append("")
+    return "\n".join(lines)
