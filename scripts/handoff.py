@@ -20,7 +20,7 @@ with rule_job(sm.log[0], name="handoff"):
     tables = {Path(p).stem: p for p in [*sm.input.tables, sm.output.failed]}
     handoff.write_data_dictionary(tables, markdown=Path(sm.output.dictionary_md),
                                   json_path=Path(sm.output.dictionary_json))
-    handoff.write_datapackage(tables, root=Path(sm.params.results),
+    handoff.write_datapackage(tables, root=Path(sm.output.datapackage).parent,
                               path=Path(sm.output.datapackage))
     handoff.write_manifest(sheet=sm.params.sheet, config=dict(sm.params.config),
                            repo=Path(sm.params.repo), path=Path(sm.output.manifest))

@@ -88,7 +88,6 @@ rule handoff:
         sheet=sheet_records(SHEET),
         config=config,
         repo=str(REPO),
-        results=RESULTS,
         code=code_fingerprint("handoff", "data_dictionary"),
     log:
         f"{RESULTS}/logs/cohort/handoff.log",
