@@ -20,6 +20,8 @@ $(STAMP): pyproject.toml
 demo: $(STAMP)
 	$(PY) -m spikevar.demo --out $(DEMO_COHORT)
 	$(SMK) --config sessions=$(DEMO_COHORT)/sessions.tsv results=$(DEMO_RESULTS)
+	$(SMK) --config sessions=$(DEMO_COHORT)/sessions.tsv results=$(DEMO_RESULTS) \
+		--report $(DEMO_RESULTS)/report.html
 	@$(PY) -m spikevar.where $(DEMO_RESULTS)
 
 ## test: lint the code and the workflow, then run the whole test suite

@@ -60,3 +60,53 @@ def test_recovery_table_and_figures(full_run):
         assert png.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
         assert png.stat().st_size > 20_000
         assert png.with_suffix(".svg").exists()
+
+
+def test_cohort_tables_with_metadata_and_csv(full_run):
+    out, sheet, _ = full_run
+    units = pq.read_table(out / "cohort" / "units.parquet").to_pandas()
+    assert list(units.columns[:5]) == ["session", "subject", "group", "probe_depth_um",
+                                       "data_origin"]
+    assert set(units["session"]) == set(sheet["session"])
+    assert set(units["group"]) == {"standard", "enriched"}
+    csv = pd.read_csv(out / "cohort" / "units.csv")
+    assert len(csv) == len(units)
+    for table in ("count_fano", "fano_timecourse", "recovery", "population_fano",
+                  "group_summary", "group_differences", "failed_sessions"):
+        assert (out / "cohort" / f"{table}.parquet").exists()
+    assert pq.read_table(out / "cohort" / "failed_sessions.parquet").num_rows == 0
+    summary = pq.read_table(out / "cohort" / "group_summary.parquet").to_pandas()
+    assert {"rate_hz", "isi_cv", "recovery_tau_s"} <= set(summary["metric"])
+
+
+def test_handoff_package(full_run):
+    import json
+
+    out, sheet, _ = full_run
+    package = json.loads((out / "datapackage.json").read_text())
+    names = {r["name"] for r in package["resources"]}
+    assert {"units", "count-fano", "recovery", "population-fano", "group-summary"} <= names
+    units = next(r for r in package["resources"] if r["name"] == "units")
+    fields = {f["name"]: f for f in units["schema"]["fields"]}
+    assert fields["rate_hz"]["type"] == "number" and fields["rate_hz"]["unit"] == "Hz"
+    assert (out / units["path"]).exists()
+    manifest = json.loads((out / "handoff" / "manifest.json").read_text())
+    assert len(manifest["inputs"]) >= len(sheet)
+    assert all(len(i["sha256"]) == 64 for i in manifest["inputs"])
+    assert manifest["config"]["results"] == "out"
+    assert "snakemake" in manifest["packages"]
+    dictionary = (out / "handoff" / "data_dictionary.md").read_text()
+    assert "`isi_lvr`" in dictionary and "Shinomoto" in dictionary
+
+
+def test_figures_and_report(full_run, tmp_path):
+    out, sheet, _ = full_run
+    for name in ("population_fano", "unit_metrics", "fano_by_window", "tau_vs_cv", "quality"):
+        png = out / "figures" / f"{name}.png"
+        assert png.read_bytes()[:4] == b"\x89PNG" and png.stat().st_size > 20_000
+        assert png.with_suffix(".svg").exists()
+    cohort = out.parent / "cohort" / "sessions.tsv"
+    run_snakemake(out.parent, "--config", f"sessions={cohort}", "results=out",
+                  "--report", str(out / "report.html"))
+    html = (out / "report.html").read_text(errors="ignore")
+    assert "Population Fano factor" in html

@@ -14,16 +14,17 @@ def describe(results: str | Path) -> str:
         ("sessions", "per-session normalised spikes/events and metric tables (Parquet)"),
         ("cohort", "cohort tables joined with the sheet's metadata (Parquet + CSV)"),
         ("figures", "figure set (PNG + SVG)"),
-        ("handoff", "data dictionary, datapackage.json and manifest for collaborators"),
+        ("handoff", "data dictionary (Markdown + JSON) and run manifest for collaborators"),
         ("logs", "one log per job"),
     ]
     for name, what in parts:
         folder = root / name
         if folder.exists():
             lines.append(f"  {folder}/  - {what}")
-    report = root / "report.html"
-    if report.exists():
-        lines.append(f"  {report}  - HTML report with figure captions")
+    for name, what in (("datapackage.json", "Data Package descriptor listing every table"),
+                       ("report.html", "HTML report with figure captions")):
+        if (root / name).exists():
+            lines.append(f"  {root / name}  - {what}")
     return "\n".join(lines)
 
 
