@@ -67,7 +67,7 @@ def simulate_session(rng: np.random.Generator, *, group: str, size: DemoSize):
     for u in range(size.units_per_session):
         model = _unit_model(rng, group)
         baseline = 1.0 / model.mean_isi_s
-        gain = float(rng.uniform(0.5, 0.9))
+        gain = float(rng.uniform(0.25, 0.5))
         amplitudes = np.array([CONDITIONS[c] for c in conditions]) * rng.uniform(0.5, 1.5)
         rate = simulate.event_locked_rate(grid, event_times_s=onsets,
                                           event_amplitudes_hz=amplitudes, baseline_hz=baseline,
