@@ -39,3 +39,16 @@ rule all:
         expand(f"{RESULTS}/figures/{{figure}}.png", figure=COHORT_FIGURES),
         f"{RESULTS}/datapackage.json",
     default_target: True
+
+
+onerror:
+    from spikevar.failures import write_partial_cohort
+
+    try:
+        for failure in write_partial_cohort(RESULTS, SESSIONS, cohort_metadata(SHEET)):
+            print(
+                f"spikevar: session {failure['session']} failed in {failure['rule']}: "
+                f"{failure['reason']}"
+            )
+    except Exception as err:  # reporting must never hide the original error
+        print(f"spikevar: could not assemble the partial cohort: {err}")

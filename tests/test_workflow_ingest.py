@@ -58,7 +58,7 @@ def test_keep_going_with_one_broken_session(tiny_cohort, tmp_path):
     sheet.to_csv(sheet_path, sep="\t", index=False)
     before = (sheet_path.parent / "broken.csv").read_bytes()
     proc = run_snakemake(tmp_path, "--keep-going", "--config", f"sessions={sheet_path}",
-                         "results=out", "--until", "ingest_session", check=False)
+                         "results=out", check=False)
     assert proc.returncode != 0
     out = tmp_path / "out" / "sessions"
     assert not (out / broken / "spikes.parquet").exists()
@@ -69,3 +69,13 @@ def test_keep_going_with_one_broken_session(tiny_cohort, tmp_path):
     assert "Non-numeric" in log and "2 (line 3)" in log and "broken.csv" in log
     assert "Traceback" not in log
     assert (sheet_path.parent / "broken.csv").read_bytes() == before
+    # the complete sessions are assembled into cohort_partial, the broken one is reported
+    partial = tmp_path / "out" / "cohort_partial"
+    units = pd.read_parquet(partial / "units.parquet")
+    assert set(units["session"]) == set(sheet["session"][1:])
+    failed = pd.read_parquet(partial / "failed_sessions.parquet")
+    assert failed["session"].tolist() == [broken]
+    assert failed["rule"].tolist() == ["ingest"]
+    assert "Non-numeric" in failed["reason"].iloc[0]
+    assert f"session {broken} failed in ingest" in proc.stdout + proc.stderr
+    assert not (tmp_path / "out" / "cohort" / "units.parquet").exists()
