@@ -28,6 +28,10 @@ include: "workflow/rules/cohort.smk"
 include: "workflow/rules/figures.smk"
 
 
+localrules:
+    all,
+
+
 rule all:
     input:
         expand(

@@ -7,16 +7,27 @@ column (for example ``group``) does not change a rule's parameters and does not 
 from __future__ import annotations
 
 import math
+import os
 
 import pandas as pd
+
+
+def portable_path(path: str) -> str:
+    """``path`` relative to the working directory when it lies inside it, else absolute.
+
+    Keeps job inputs independent of where the project folder sits, so a whole working folder
+    (cohort + results + Snakemake's records) can be moved without rerunning anything.
+    """
+    relative = os.path.relpath(path)
+    return path if relative.startswith("..") else relative
 
 
 def ingest_inputs(sheet: pd.DataFrame, session: str) -> dict[str, str]:
     """Raw files of a session: ``spikes`` and, when given, ``events``."""
     row = sheet.loc[session]
-    inputs = {"spikes": row["spikes"]}
+    inputs = {"spikes": portable_path(row["spikes"])}
     if row["events"]:
-        inputs["events"] = row["events"]
+        inputs["events"] = portable_path(row["events"])
     return inputs
 
 
@@ -48,5 +59,11 @@ def cohort_metadata(sheet: pd.DataFrame) -> dict:
 
 def sheet_records(sheet: pd.DataFrame) -> list[dict]:
     """The checked sheet as plain records (for the manifest)."""
-    return [{k: (None if isinstance(v, float) and math.isnan(v) else v)
-             for k, v in row.items()} for row in sheet.reset_index(drop=True).to_dict("records")]
+    records = []
+    for row in sheet.reset_index(drop=True).to_dict("records"):
+        row = {k: (None if isinstance(v, float) and math.isnan(v) else v) for k, v in row.items()}
+        for key in ("spikes", "events"):
+            if row.get(key):
+                row[key] = portable_path(row[key])
+        records.append(row)
+    return records

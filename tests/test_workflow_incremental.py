@@ -1,0 +1,142 @@
+"""Incremental reruns: each change reruns exactly the jobs that depend on it (read from dry runs)."""
+
+import re
+import shutil
+import time
+
+import pandas as pd
+import pyarrow.parquet as pq
+import pytest
+
+from conftest import REPO, run_snakemake
+
+pytestmark = pytest.mark.workflow
+
+SESSION_RULES = {"ingest_session", "session_metrics", "session_recovery",
+                 "session_recovery_figure"}
+COHORT_RULES = {"cohort_table", "population_fano", "group_summary", "handoff", "cohort_figures"}
+
+
+def planned_jobs(workdir, sheet, *extra, snakefile=None):
+    """(rule, session or None) of every job a dry run would execute."""
+    args = ["-n", *extra, "--config", f"sessions={sheet}", "results=out"]
+    if snakefile is not None:
+        args = ["-s", str(snakefile), *args]
+    text = run_snakemake(workdir, *args).stdout
+    jobs, current = [], None
+    for line in text.splitlines():
+        match = re.match(r"^(?:local)?rule (\w+):", line.strip())
+        if match:
+            if current:
+                jobs.append(tuple(current))
+            current = [match.group(1), None]
+        wild = re.search(r"wildcards: .*session=([^,\s]+)", line)
+        if wild and current:
+            current[1] = wild.group(1)
+    if current:
+        jobs.append(tuple(current))
+    return [j for j in jobs if j[0] != "all"]
+
+
+@pytest.fixture(scope="module")
+def template(tiny_cohort, tmp_path_factory):
+    """One finished run; each test works on a copy of the whole working folder."""
+    work = tmp_path_factory.mktemp("template")
+    shutil.copytree(tiny_cohort.parent, work / "cohort")
+    run_snakemake(work, "--config", "sessions=cohort/sessions.tsv", "results=out")
+    return work
+
+
+@pytest.fixture()
+def finished(template, tmp_path):
+    work = tmp_path / "work"
+    shutil.copytree(template, work, symlinks=True)
+    return work, "cohort/sessions.tsv"
+
+
+def rules_of(jobs):
+    return {r for r, _ in jobs}
+
+
+def sessions_of(jobs):
+    return {s for _, s in jobs if s is not None}
+
+
+def test_nothing_changed_runs_nothing(finished):
+    work, sheet = finished
+    assert planned_jobs(work, sheet) == []
+
+
+def test_resorted_session_reruns_that_session_and_cohort(finished):
+    work, sheet = finished
+    sheet_path = work / sheet
+    frame = pd.read_csv(sheet_path, sep="\t", dtype=str, keep_default_na=False)
+    target = frame.loc[frame["spikes"].str.endswith(".csv")].iloc[0]
+    path = sheet_path.parent / target["spikes"]
+    time.sleep(1.1)
+    spikes = pd.read_csv(path)
+    spikes.sample(frac=1.0, random_state=1).to_csv(path, index=False)  # same spikes, new order
+    jobs = planned_jobs(work, sheet)
+    assert sessions_of(jobs) == {target["session"]}
+    assert SESSION_RULES <= rules_of(jobs)
+    assert COHORT_RULES <= rules_of(jobs)
+
+
+def test_new_row_runs_new_session_and_cohort_only(finished):
+    work, sheet = finished
+    sheet_path = work / sheet
+    frame = pd.read_csv(sheet_path, sep="\t", dtype=str, keep_default_na=False)
+    extra = frame.iloc[[0]].copy()
+    shutil.copy(sheet_path.parent / extra["spikes"].iloc[0],
+                sheet_path.parent / "added_spikes.csv")
+    extra["session"] = "added-s1"
+    extra["spikes"] = "added_spikes.csv"
+    pd.concat([frame, extra]).to_csv(sheet_path, sep="\t", index=False)
+    jobs = planned_jobs(work, sheet)
+    assert sessions_of(jobs) == {"added-s1"}
+    assert rules_of(jobs) == SESSION_RULES | COHORT_RULES
+
+
+def test_metadata_edit_reruns_cohort_jobs_only(finished):
+    work, sheet = finished
+    frame = pd.read_csv(work / sheet, sep="\t", dtype=str, keep_default_na=False)
+    frame.loc[0, "group"] = "relabelled"
+    frame.to_csv(work / sheet, sep="\t", index=False)
+    jobs = planned_jobs(work, sheet)
+    assert sessions_of(jobs) == set()
+    assert "cohort_table" in rules_of(jobs)
+    assert not rules_of(jobs) & SESSION_RULES
+
+
+def test_metric_parameter_reruns_only_rules_that_use_it(finished):
+    work, sheet = finished
+    override = work / "override.yaml"
+    override.write_text("metrics:\n  lvr_refractory_s: 0.004\n")
+    jobs = planned_jobs(work, sheet, "--configfile", str(REPO / "config" / "config.yaml"),
+                        str(override))
+    assert "session_metrics" in rules_of(jobs)
+    assert not rules_of(jobs) & {"ingest_session", "session_recovery",
+                                 "session_recovery_figure"}
+
+
+def test_code_change_reruns_rules_that_import_it(finished, tmp_path_factory):
+    work, sheet = finished
+    copy = tmp_path_factory.mktemp("repo_copy")
+    for part in ("Snakefile", "src", "workflow", "scripts", "config"):
+        src = REPO / part
+        (shutil.copytree if src.is_dir() else shutil.copy)(src, copy / part)
+    with open(copy / "src" / "spikevar" / "count_fano.py", "a") as handle:
+        handle.write("\n# a change to the count Fano code\n")
+    jobs = planned_jobs(work, sheet, snakefile=copy / "Snakefile")
+    assert "session_metrics" in rules_of(jobs)
+    assert not rules_of(jobs) & {"ingest_session", "session_recovery"}
+
+
+def test_two_runs_give_identical_tables(finished):
+    work, sheet = finished
+    run_snakemake(work, "--config", f"sessions={sheet}", "results=again")
+    for table in ("units", "count_fano", "fano_timecourse", "recovery", "population_fano",
+                  "group_summary", "group_differences"):
+        a = pq.read_table(work / "out" / "cohort" / f"{table}.parquet")
+        b = pq.read_table(work / "again" / "cohort" / f"{table}.parquet")
+        assert a.equals(b), table
