@@ -1,4 +1,4 @@
-"""Incremental reruns: each change reruns exactly the jobs that depend on it (read from dry runs)."""
+"""Incremental reruns: each change reruns exactly the jobs that depend on it (dry runs)."""
 
 import re
 import shutil
