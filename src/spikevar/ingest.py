@@ -63,11 +63,15 @@ def _require_columns(table: pa.Table, needed: list[str], *, config_key: str) -> 
     missing = [c for c in needed if c not in table.column_names]
     if missing:
         found = ", ".join(repr(c) for c in table.column_names) or "none"
+        fix = (f"rename the column(s) in the file, or map them in the config under "
+               f"'columns' ({config_key}).")
+        for sep, name in ((";", "semicolons"), ("|", "vertical bars"), (" ", "spaces")):
+            if len(table.column_names) == 1 and sep in table.column_names[0]:
+                fix = (f"the file seems to be separated by {name}; save it with commas (.csv) "
+                       "or tabs (.tsv).")
         raise SpikevarInputError(
             f"Missing column(s) {', '.join(repr(m) for m in missing)}; the file has: {found}.",
-            fix=f"rename the column(s) in the file, or map them in the config under "
-            f"'columns' ({config_key}).",
-            where=f"column {missing[0]!r}")
+            fix=fix, where=f"column {missing[0]!r}")
 
 
 def _numeric_times(column: pa.ChunkedArray, *, name: str, text: bool) -> np.ndarray:
@@ -78,6 +82,12 @@ def _numeric_times(column: pa.ChunkedArray, *, name: str, text: bool) -> np.ndar
     elif pa.types.is_null(column.type) and len(column) == 0:
         values = np.zeros(0)
         bad_text = np.zeros(0, dtype=bool)
+    elif not (pa.types.is_string(column.type) or pa.types.is_large_string(column.type)
+              or pa.types.is_null(column.type) or pa.types.is_dictionary(column.type)):
+        raise SpikevarInputError(
+            f"The time column has type {column.type}, not numbers.",
+            fix="store times as plain numbers in the declared time unit (s, ms, us or samples).",
+            where=f"column {name!r}")
     else:
         as_text = pd.Series(column.to_pandas(), dtype="object")
         values = pd.to_numeric(as_text, errors="coerce").to_numpy(dtype=np.float64)
@@ -240,6 +250,15 @@ def _read_raw(path: Path, *, columns: ColumnNames, kind: str) -> tuple[pa.Table,
     return readers.read_text_table(path, string_columns=strings), True, False
 
 
+def _uninterpretable(exc: Exception, *, session: str, path) -> SpikevarInputError:
+    """A table that was read but whose column types cannot be interpreted."""
+    return SpikevarInputError(
+        f"The table's columns could not be interpreted ({type(exc).__name__}: "
+        f"{str(exc).splitlines()[0] if str(exc) else 'no detail'}).",
+        fix="unit ids must be text or integers and times plain numbers, one spike per row.",
+        session=session, path=str(path))
+
+
 def _check_readable(path: Path, *, session: str) -> None:
     if not path.exists():
         raise SpikevarInputError("The file does not exist.", session=session, path=str(path),
@@ -313,6 +332,8 @@ def ingest_session(
                                              sampling_rate_hz=sampling_rate_hz)
     except SpikevarInputError as err:
         raise err.with_context(session=session, path=str(spikes_path)) from None
+    except (pa.ArrowException, ValueError, TypeError) as exc:
+        raise _uninterpretable(exc, session=session, path=spikes_path) from None
     times = spikes.column("time_s").to_numpy()
     span = (float(times.min()), float(times.max()))
     if events_path is None or str(events_path) == "":
@@ -325,6 +346,8 @@ def ingest_session(
                                                  sampling_rate_hz=sampling_rate_hz, span=span)
         except SpikevarInputError as err:
             raise err.with_context(session=session, path=str(events_path)) from None
+        except (pa.ArrowException, ValueError, TypeError) as exc:
+            raise _uninterpretable(exc, session=session, path=events_path) from None
     tables = {"spikes": (spikes, spikes_meta), "events": (events, events_meta)}
     summary: dict = {"session": session}
     write_parquet_atomic(tables["spikes"][0], spikes_out, metadata=tables["spikes"][1])

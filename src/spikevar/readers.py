@@ -45,13 +45,17 @@ def read_text_table(path: str | Path, *, string_columns: tuple[str, ...] = ()) -
                     "The file name ends in .gz but the file is not gzip-compressed.",
                     fix="compress it with gzip, or remove the .gz from its name.", path=str(path))
     try:
-        return pacsv.read_csv(
+        table = pacsv.read_csv(
             path,
             parse_options=pacsv.ParseOptions(delimiter=delimiter),
             convert_options=pacsv.ConvertOptions(
                 column_types={c: pa.string() for c in string_columns},
                 strings_can_be_null=False),
         )
+        names = table.column_names
+        if names and names[0].startswith("\ufeff"):  # a byte-order mark the reader kept
+            table = table.rename_columns([names[0].lstrip("\ufeff"), *names[1:]])
+        return table
     except (pa.ArrowInvalid, OSError, EOFError, gzip.BadGzipFile) as exc:
         message = str(exc).splitlines()[0]
         if "Empty CSV file" in message:

@@ -85,8 +85,8 @@ def _recovery_terms(iv: Intervals, tau: float, d: float):
     with np.errstate(divide="ignore", invalid="ignore"):
         L = float(np.log(one_minus_e).sum())
         inv = e / one_minus_e
-    dL_tau = float(-(inv * x).sum() / tau)
-    dL_d = float(-inv.sum() / tau)
+        dL_tau = float(-(inv * x).sum() / tau)
+        dL_d = float(-inv.sum() / tau)
     far_w = iv._cw[-1] - iv._cw[k]
     far_ws = iv._cws[-1] - iv._cws[k]
     D += far_ws - d * far_w - tau * far_w
@@ -178,6 +178,9 @@ def fit_exp_recovery(iv: Intervals, *, with_interval: bool = True) -> Fit:
     profile-likelihood interval (``d`` re-optimised at each ``tau``); an end that reaches a
     bound is reported as 0 or inf.
     """
+    if not iv.min_isi > 0:
+        return Fit("exp_recovery", note="zero-length interval (duplicate spike times): the "
+                   "recovery model gives it zero probability")
     lo, hi = _tau_bounds(iv)
     bounds = [(np.log(lo), np.log(hi)), (0.0, 1.0 - 1e-6)]
     starts = [(np.log(np.clip(f * iv.mean_isi, lo, hi)), df)
