@@ -37,3 +37,23 @@ def naive_tables(spikes: pd.DataFrame, events: pd.DataFrame, *, windows_s, tc_le
                                 "mean_count": counts[:, j].mean(),
                                 "var_count": counts[:, j].var(ddof=1)})
     return pd.DataFrame(units_rows), pd.DataFrame(count_rows), pd.DataFrame(tc_rows)
+
+
+def naive_recovery_fit(isi, censored):
+    """exp_recovery fitted the plain way: Nelder-Mead on the full 3-parameter likelihood."""
+    from scipy import optimize
+
+    def negative_loglik(theta):
+        r, tau, d = np.exp(theta[0]), np.exp(theta[1]), theta[2]
+        if d < 0 or d >= isi.min():
+            return 1e300
+        u = isi - d
+        h = r * (1 - np.exp(-u / tau))
+        big_h = r * (u - tau * (1 - np.exp(-u / tau)))
+        uc = max(censored - d, 0.0)
+        hc = r * (uc - tau * (1 - np.exp(-uc / tau)))
+        return -(np.sum(np.log(h)) - np.sum(big_h) - hc)
+
+    start = np.array([np.log(1 / isi.mean()), np.log(isi.mean() / 10), isi.min() / 2])
+    return optimize.minimize(negative_loglik, start, method="Nelder-Mead",
+                             options={"maxiter": 4000, "xatol": 1e-8, "fatol": 1e-8})

@@ -19,6 +19,8 @@ rule cohort_table:
         code=code_fingerprint("cohort_tables", "parquet_io"),
     log:
         f"{RESULTS}/logs/cohort/{{table}}.log",
+    benchmark:
+        f"{RESULTS}/benchmarks/cohort/{{table}}.tsv"
     conda:
         "../envs/spikevar.yaml"
     resources:
@@ -39,6 +41,8 @@ rule population_fano:
         code=code_fingerprint("population_fano", "cohort_run"),
     log:
         f"{RESULTS}/logs/cohort/population_fano.log",
+    benchmark:
+        f"{RESULTS}/benchmarks/cohort/population_fano.tsv"
     conda:
         "../envs/spikevar.yaml"
     resources:
@@ -62,6 +66,8 @@ rule group_summary:
         code=code_fingerprint("group_stats", "hierarchical_bootstrap", "cohort_run"),
     log:
         f"{RESULTS}/logs/cohort/group_summary.log",
+    benchmark:
+        f"{RESULTS}/benchmarks/cohort/group_summary.tsv"
     conda:
         "../envs/spikevar.yaml"
     resources:
@@ -91,6 +97,8 @@ rule handoff:
         code=code_fingerprint("handoff", "data_dictionary"),
     log:
         f"{RESULTS}/logs/cohort/handoff.log",
+    benchmark:
+        f"{RESULTS}/benchmarks/cohort/handoff.tsv"
     conda:
         "../envs/spikevar.yaml"
     resources:

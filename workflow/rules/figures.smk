@@ -40,6 +40,8 @@ rule cohort_figures:
         code=code_fingerprint("figures_cohort", "figure_style", "group_stats"),
     log:
         f"{RESULTS}/logs/cohort/figures.log",
+    benchmark:
+        f"{RESULTS}/benchmarks/cohort/cohort_figures.tsv"
     conda:
         "../envs/spikevar.yaml"
     resources:

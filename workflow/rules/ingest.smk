@@ -12,6 +12,8 @@ rule ingest_session:
         code=code_fingerprint("ingest", "readers", "time_units", "parquet_io"),
     log:
         f"{RESULTS}/logs/sessions/{{session}}/ingest.log",
+    benchmark:
+        f"{RESULTS}/benchmarks/sessions/{{session}}/ingest_session.tsv"
     conda:
         "../envs/spikevar.yaml"
     group:

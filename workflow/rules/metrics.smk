@@ -18,6 +18,8 @@ rule session_metrics:
         ),
     log:
         f"{RESULTS}/logs/sessions/{{session}}/metrics.log",
+    benchmark:
+        f"{RESULTS}/benchmarks/sessions/{{session}}/session_metrics.tsv"
     conda:
         "../envs/spikevar.yaml"
     group:

@@ -14,6 +14,8 @@ rule session_recovery:
         ),
     log:
         f"{RESULTS}/logs/sessions/{{session}}/recovery.log",
+    benchmark:
+        f"{RESULTS}/benchmarks/sessions/{{session}}/session_recovery.tsv"
     conda:
         "../envs/spikevar.yaml"
     group:
@@ -42,6 +44,8 @@ rule session_recovery_figure:
         code=code_fingerprint("figures_recovery", "figure_style", "hazard_models"),
     log:
         f"{RESULTS}/logs/sessions/{{session}}/recovery_figure.log",
+    benchmark:
+        f"{RESULTS}/benchmarks/sessions/{{session}}/session_recovery_figure.tsv"
     conda:
         "../envs/spikevar.yaml"
     group:

@@ -1,0 +1,93 @@
+"""Benchmark of a large cohort through Snakemake (not a test; prints numbers).
+
+Builds a synthetic cohort of N sessions x U units (Poisson trains written as Parquet), runs the
+whole pipeline, and reports: full run time and time per job; the dry run of the finished cohort;
+the rerun after one session's spike file changes (and its share of the full run); the peak
+memory (max RSS from Snakemake's benchmark files) of the cohort-assembly jobs.
+
+Run: .venv/bin/python bench/bench_cohort.py [--sessions 200] [--units 100] [--duration 120]
+"""
+
+import argparse
+import os
+import subprocess
+import sys
+import time
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+REPO = Path(__file__).resolve().parents[1]
+
+
+def build(folder: Path, n_sessions: int, n_units: int, duration: float) -> Path:
+    rng = np.random.default_rng(0)
+    folder.mkdir(parents=True, exist_ok=True)
+    rows = []
+    for s in range(n_sessions):
+        rates = rng.uniform(2, 20, n_units)
+        counts = rng.poisson(rates * duration)
+        unit = np.repeat([f"u{i:03d}" for i in range(n_units)], counts)
+        t = rng.uniform(0, duration, counts.sum())
+        name = f"s{s:04d}"
+        pd.DataFrame({"unit": unit, "time": t}).to_parquet(folder / f"{name}.parquet")
+        onsets = np.arange(2.0, duration - 2.0, 3.0)
+        pd.DataFrame({"time": onsets, "condition": np.where(np.arange(len(onsets)) % 2, "a",
+                                                             "b")}).to_parquet(
+            folder / f"{name}_events.parquet")
+        rows.append({"session": name, "subject": f"m{s // 4:03d}",
+                     "group": "g1" if (s // 4) % 2 else "g2", "spikes": f"{name}.parquet",
+                     "events": f"{name}_events.parquet"})
+    pd.DataFrame(rows).to_csv(folder / "sessions.tsv", sep="\t", index=False)
+    return folder / "sessions.tsv"
+
+
+def snakemake(work: Path, *args: str) -> float:
+    t0 = time.perf_counter()
+    subprocess.run([sys.executable, "-m", "snakemake", "-s", str(REPO / "Snakefile"),
+                    "--directory", str(work), "--cores", str(os.cpu_count() or 2), *args,
+                    "--configfile", str(REPO / "config" / "config.yaml"),
+                    str(work / "override.yaml"), "--config", "sessions=cohort/sessions.tsv",
+                    "results=out"],
+                   check=True, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
+    return time.perf_counter() - t0
+
+
+def main():
+    parser = argparse.ArgumentParser()
+    parser.add_argument("--sessions", type=int, default=200)
+    parser.add_argument("--units", type=int, default=100)
+    parser.add_argument("--duration", type=float, default=120.0)
+    parser.add_argument("--work", default="bench/out/cohort")
+    args = parser.parse_args()
+    work = Path(args.work).resolve()
+    if work.exists():
+        import shutil
+        shutil.rmtree(work)
+    build(work / "cohort", args.sessions, args.units, args.duration)
+    # the profile-likelihood interval is switched off: this measures the workflow, not the fits
+    (work / "override.yaml").write_text("recovery:\n  tau_interval: false\n")
+    n_jobs = args.sessions * 4 + 4 + 4
+    full = snakemake(work)
+    print(f"cohort: {args.sessions} sessions x {args.units} units, {args.duration:.0f} s each")
+    print(f"full run: {full:.1f} s for about {n_jobs} jobs on {os.cpu_count()} cores "
+          f"({full / n_jobs * (os.cpu_count() or 2):.2f} core-seconds per job)")
+    dry = snakemake(work, "-n")
+    print(f"dry run of the finished cohort: {dry:.2f} s")
+    target = work / "cohort" / "s0000.parquet"
+    frame = pd.read_parquet(target)
+    frame.sample(frac=1.0, random_state=1).to_parquet(target)
+    rerun = snakemake(work)
+    print(f"rerun after one session changed: {rerun:.1f} s = {100 * rerun / full:.1f}% of the "
+          "full run")
+    rss = []
+    for path in (work / "out" / "benchmarks" / "cohort").glob("*.tsv"):
+        bench = pd.read_csv(path, sep="\t")
+        rss.append((path.stem, float(bench["max_rss"].iloc[0])))
+    for name, value in sorted(rss):
+        print(f"  peak memory (max RSS) of cohort job {name}: {value:.0f} MB")
+
+
+if __name__ == "__main__":
+    main()

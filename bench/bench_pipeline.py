@@ -1,0 +1,119 @@
+"""Benchmark of the whole per-session pipeline on one large session (not a test).
+
+One session of 400 units x 1 h (~20 million spikes) written as CSV with a 2,000-trial event
+table. Prints stage-by-stage seconds and spikes/s for spikevar (ingest, metrics, recovery fits),
+the CSV ingestion time against reading the same file with pyarrow.csv alone, and the end-to-end
+ratio against a straightforward pandas/NumPy script with per-unit and per-trial loops
+(bench/naive_reference.py; timed on a subset of units and scaled to all).
+
+Run: .venv/bin/python bench/bench_pipeline.py [--units 400] [--hours 1]
+"""
+
+import os
+
+os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")  # one core, as one Snakemake job
+
+import argparse  # noqa: E402
+import sys  # noqa: E402
+import time  # noqa: E402
+from pathlib import Path  # noqa: E402
+
+import numpy as np  # noqa: E402
+import pandas as pd  # noqa: E402
+import pyarrow as pa  # noqa: E402
+import pyarrow.csv as pacsv  # noqa: E402
+
+sys.path.insert(0, str(Path(__file__).resolve().parent))
+from naive_reference import naive_recovery_fit, naive_tables  # noqa: E402
+
+from spikevar.ingest import ColumnNames, ingest_session  # noqa: E402
+from spikevar.recovery_table import RecoverySettings, run_session_recovery  # noqa: E402
+from spikevar.session_metrics import MetricSettings, run_session_metrics  # noqa: E402
+from spikevar.simulate import ExpRecoveryISI, renewal_train  # noqa: E402
+
+
+def build(folder: Path, n_units: int, duration: float, n_trials: int):
+    rng = np.random.default_rng(0)
+    units, times = [], []
+    for u in range(n_units):
+        model = ExpRecoveryISI(float(rng.uniform(8, 30)), float(rng.uniform(0.002, 0.02)),
+                               float(rng.uniform(0.0005, 0.002)))
+        t = renewal_train(model, duration_s=duration, rng=rng)
+        units.append(np.full(len(t), u, dtype=np.int32))
+        times.append(t)
+    table = pa.table({"unit": np.concatenate(units), "time": np.concatenate(times)})
+    folder.mkdir(parents=True, exist_ok=True)
+    pacsv.write_csv(table, folder / "spikes.csv")
+    onsets = np.sort(rng.uniform(2, duration - 2, n_trials))
+    pd.DataFrame({"time": onsets, "condition": rng.choice(["a", "b"], n_trials)}).to_csv(
+        folder / "events.csv", index=False)
+    return table.num_rows
+
+
+def timed(label, fn, n_spikes, results):
+    t0 = time.perf_counter()
+    out = fn()
+    results[label] = time.perf_counter() - t0
+    print(f"  {label:<28} {results[label]:8.2f} s  {n_spikes / results[label] / 1e6:6.2f} "
+          "M spikes/s")
+    return out
+
+
+def main():
+    parser = argparse.ArgumentParser()
+    parser.add_argument("--units", type=int, default=400)
+    parser.add_argument("--hours", type=float, default=1.0)
+    parser.add_argument("--trials", type=int, default=2000)
+    parser.add_argument("--naive-units", type=int, default=4)
+    parser.add_argument("--work", default="bench/out/pipeline")
+    args = parser.parse_args()
+    work = Path(args.work)
+    duration = args.hours * 3600
+    n = build(work / "raw", args.units, duration, args.trials)
+    size = (work / "raw" / "spikes.csv").stat().st_size
+    print(f"session: {args.units} units, {duration:.0f} s, {n:,} spikes "
+          f"(CSV {size / 1e6:.0f} MB), {args.trials} trials")
+    out = work / "out"
+    r = {}
+    timed("pyarrow.csv.read_csv alone", lambda: pacsv.read_csv(work / "raw" / "spikes.csv"), n,
+          r)
+    timed("spikevar ingest (CSV)", lambda: ingest_session(
+        session="big", spikes_path=work / "raw" / "spikes.csv",
+        events_path=work / "raw" / "events.csv", columns=ColumnNames(), time_unit="s",
+        sampling_rate_hz=None, spikes_out=out / "spikes.parquet",
+        events_out=out / "events.parquet"), n, r)
+    timed("spikevar metrics", lambda: run_session_metrics(
+        session="big", spikes_path=out / "spikes.parquet", events_path=out / "events.parquet",
+        outputs={k: out / f"{k}.parquet" for k in ("units", "count_fano", "fano_timecourse")},
+        settings=MetricSettings()), n, r)
+    timed("spikevar recovery fits", lambda: run_session_recovery(
+        session="big", spikes_path=out / "spikes.parquet", output=out / "recovery.parquet",
+        settings=RecoverySettings()), n, r)
+    ours = r["spikevar ingest (CSV)"] + r["spikevar metrics"] + r["spikevar recovery fits"]
+    print(f"  spikevar end to end: {ours:.1f} s; CSV ingestion / pyarrow alone = "
+          f"{r['spikevar ingest (CSV)'] / r['pyarrow.csv.read_csv alone']:.2f}x")
+    # straightforward reference, timed on a subset of units and scaled
+    t0 = time.perf_counter()
+    spikes = pd.read_csv(work / "raw" / "spikes.csv")
+    events = pd.read_csv(work / "raw" / "events.csv")
+    read_s = time.perf_counter() - t0
+    k = args.naive_units
+    subset = spikes[spikes["unit"] < k].rename(columns={"time": "time_s"})
+    subset = subset.sort_values(["unit", "time_s"])
+    t0 = time.perf_counter()
+    naive_tables(subset, events.rename(columns={"time": "time_s"}),
+                 windows_s=MetricSettings().counting_windows_s,
+                 tc_left=MetricSettings().timecourse.left_edges(), tc_width=0.1, start=0.0,
+                 stop=duration)
+    for _, frame in subset.groupby("unit"):
+        t = frame["time_s"].to_numpy()
+        naive_recovery_fit(np.diff(t), duration - t[-1])
+    per_unit = (time.perf_counter() - t0) / k
+    naive = read_s + per_unit * args.units
+    print(f"straightforward reference: {naive:.0f} s (pandas read {read_s:.1f} s + "
+          f"{per_unit:.2f} s per unit x {args.units}, timed on {k} units)")
+    print(f"spikevar is {naive / ours:.0f}x faster end to end")
+
+
+if __name__ == "__main__":
+    main()
