@@ -67,22 +67,13 @@ def test_mean_matched_fano_shows_drop_at_event_onset():
     # the Fano factor must fall after the event while the mean rises (Churchland et al. 2010).
     rng = np.random.default_rng(4)
     events = np.arange(2.0, 2.0 + 2.5 * 160, 2.5)
-    grid = np.arange(0, events[-1] + 3, 1e-3)
-    units, times = [], []
-    for u in range(30):
-        rate = simulate.event_locked_rate(grid, event_times_s=events,
-                                          event_amplitudes_hz=np.full(len(events),
-                                                                      rng.uniform(20, 50)),
-                                          baseline_hz=rng.uniform(5, 20), gain_cv=0.6, rng=rng,
-                                          driven_gain_cv=0.05)
-        t = simulate.modulated_renewal_train(simulate.PoissonISI(1.0), grid_s=grid,
-                                             rate_hz=rate, rng=rng)
-        units.append(np.full(len(t), f"u{u:02d}"))
-        times.append(t)
-    spikes = SpikeArrays.from_arrays(np.concatenate(units), np.concatenate(times))
+    units, times = simulate.event_locked_population(
+        n_units=30, event_times_s=events, baseline_hz=lambda g: g.uniform(5, 20),
+        amplitude_hz=lambda g: g.uniform(20, 50), gain_cv=0.6, driven_gain_cv=0.05, rng=rng)
+    spikes = SpikeArrays.from_arrays(units, times)
     tc = fano_timecourse_table(spikes, pd.DataFrame({"time_s": events, "condition": "flash"}),
                                windows=SlidingWindows(-0.4, 0.4, 0.2, 0.1),
-                               recording_s=(0.0, grid[-1]))
+                               recording_s=(0.0, times.max()))
     tc = tc.assign(session="s1", group="g")
     table = population_fano_table(tc, settings=MeanMatchSettings(n_boot=20, n_bins=6),
                                   seed=5).set_index("time_s")

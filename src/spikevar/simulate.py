@@ -283,3 +283,32 @@ def multiplicative_recovery_trains(
     times, which = times[order], which[order]
     bounds = np.searchsorted(which, np.arange(n_trains + 1))
     return [times[bounds[k]:bounds[k + 1]] for k in range(n_trains)]
+
+
+def event_locked_population(
+    *,
+    n_units: int,
+    event_times_s: np.ndarray,
+    baseline_hz,
+    amplitude_hz,
+    gain_cv: float,
+    driven_gain_cv: float,
+    rng: np.random.Generator,
+    dt_s: float = 1e-3,
+) -> tuple[np.ndarray, np.ndarray]:
+    """Poisson units with event-locked responses and trial-to-trial gain (see
+    :func:`event_locked_rate`). ``baseline_hz`` and ``amplitude_hz`` are numbers or callables
+    ``f(rng)`` drawn once per unit. Returns unit labels and spike times (unsorted by unit)."""
+    events = np.asarray(event_times_s, dtype=float)
+    grid = np.arange(0.0, events.max() + 3.0, dt_s)
+    draw = lambda v: float(v(rng)) if callable(v) else float(v)  # noqa: E731
+    units, times = [], []
+    for u in range(n_units):
+        rate = event_locked_rate(grid, event_times_s=events,
+                                 event_amplitudes_hz=np.full(len(events), draw(amplitude_hz)),
+                                 baseline_hz=draw(baseline_hz), gain_cv=gain_cv, rng=rng,
+                                 driven_gain_cv=driven_gain_cv)
+        t = modulated_renewal_train(PoissonISI(1.0), grid_s=grid, rate_hz=rate, rng=rng)
+        units.append(np.full(len(t), f"u{u:03d}"))
+        times.append(t)
+    return np.concatenate(units), np.concatenate(times)
