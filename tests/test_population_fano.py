@@ -93,3 +93,17 @@ def test_too_few_units_gives_nan_with_reason():
     empty = population_fano_table(timecourse_from_counts(counts, [0.0, 0.1]).iloc[:0],
                                   settings=MeanMatchSettings(), seed=0)
     assert len(empty) == 0 and "fano_mean_matched" in empty.columns
+
+
+def test_mean_match_mask_keeps_the_common_distribution():
+    from spikevar.population_fano import mean_match_mask
+
+    rng = np.random.default_rng(7)
+    bins = rng.integers(-1, 4, size=(60, 5))
+    hist = np.stack([np.bincount(bins[:, w][bins[:, w] >= 0], minlength=4) for w in range(5)])
+    common = hist.min(axis=0)
+    keep = mean_match_mask(bins, hist, common, rng)
+    for w in range(5):
+        kept = np.bincount(bins[keep[:, w], w], minlength=4)
+        np.testing.assert_array_equal(kept, common)
+    assert not keep[bins < 0].any()

@@ -50,6 +50,27 @@ def slope_through_origin(mean: np.ndarray, var: np.ndarray, axis: int = -1) -> n
         return np.where(den > 0, num / den, np.nan)
 
 
+def mean_match_mask(bins: np.ndarray, hist: np.ndarray, common: np.ndarray,
+                    rng: np.random.Generator) -> np.ndarray:
+    """Units kept at each window so that every window's histogram equals ``common``.
+
+    ``bins``: (units, windows) bin index, -1 for unusable; ``hist``: (windows, bins) counts.
+    Within each (window, bin) the kept units are a uniformly random subset: units are sorted by
+    ``bin + U(0, 1)`` (one sort per call) and the first ``common[bin]`` of each bin are kept.
+    """
+    n_units, n_win = bins.shape
+    first = np.concatenate([np.zeros((n_win, 1), dtype=np.int64),
+                            np.cumsum(hist, axis=1)[:, :-1]], axis=1)  # (windows, bins)
+    order = np.argsort(np.where(bins >= 0, bins + rng.random((n_units, n_win)), np.inf), axis=0)
+    sorted_bins = np.take_along_axis(bins, order, axis=0)
+    sorted_safe = np.maximum(sorted_bins, 0)
+    rank = np.arange(n_units)[:, None] - first[np.arange(n_win)[None, :], sorted_safe]
+    keep_sorted = (sorted_bins >= 0) & (rank < common[sorted_safe])
+    keep = np.zeros_like(keep_sorted)
+    np.put_along_axis(keep, order, keep_sorted, axis=0)
+    return keep
+
+
 def mean_matched_slopes(mean: np.ndarray, var: np.ndarray, *, n_bins: int, n_repeats: int,
                         rng: np.random.Generator) -> tuple[np.ndarray, np.ndarray]:
     """Mean-matched slope for every window. ``mean``/``var``: (units, windows).
@@ -70,16 +91,7 @@ def mean_matched_slopes(mean: np.ndarray, var: np.ndarray, *, n_bins: int, n_rep
     slopes = np.zeros((n_repeats, n_win))
     kept_n = int(common.sum())
     for r in range(n_repeats):
-        keys = rng.random((n_units, n_win))
-        keys = np.where(bins >= 0, keys, np.inf)
-        keep = np.zeros_like(finite)
-        for b in range(n_bins):
-            if common[b] == 0:
-                continue
-            in_bin = bins == b
-            k = np.where(in_bin, keys, np.inf)
-            cutoff = np.sort(k, axis=0)[common[b] - 1]  # per window
-            keep |= in_bin & (k <= cutoff[None, :])
+        keep = mean_match_mask(bins, hist, common, rng)
         slopes[r] = slope_through_origin(np.where(keep, mean, np.nan),
                                          np.where(keep, var, np.nan), axis=0)
     return slopes.mean(axis=0), np.full(n_win, kept_n)
