@@ -8,7 +8,7 @@ import warnings
 import numpy as np
 import pandas as pd
 
-from spikevar.hierarchical_bootstrap import hierarchical_resample_indices, replicate_stats
+from spikevar.hierarchical_bootstrap import bootstrap_mean_median
 
 METRICS = {
     "rate_hz": "firing rate (Hz)",
@@ -47,10 +47,8 @@ def unit_metric_frame(units: pd.DataFrame, count_fano: pd.DataFrame,
     return frame
 
 
-def _boot(values, subject, session, *, n_boot, rng, levels=("subject", "session", "unit")):
-    rows, rep = hierarchical_resample_indices(subject, session, n_boot=n_boot, rng=rng,
-                                              levels=levels)
-    return replicate_stats(values, rows, rep, n_boot)
+def _boot(values, subject, session, *, n_boot, rng):
+    return bootstrap_mean_median(values, subject, session, n_boot=n_boot, rng=rng)
 
 
 def _pct(x, q):

@@ -72,17 +72,46 @@ def hierarchical_resample_indices(subject, session, *, n_boot: int, rng: np.rand
 
 
 def replicate_stats(values: np.ndarray, rows: np.ndarray, replicate: np.ndarray, n_boot: int):
-    """Mean and median of ``values[rows]`` per replicate (vectorised)."""
-    x = values[rows]
+    """Mean and median of ``values[rows]`` per replicate (vectorised, no sort of the draws).
+
+    Medians use ranks: ``values`` are ranked once, each replicate's draws are counted per rank
+    (``bincount``), and the middle order statistics are found from the cumulative counts.
+    """
+    n = len(values)
     count = np.bincount(replicate, minlength=n_boot)
+    x = values[rows]
     mean = np.bincount(replicate, weights=x, minlength=n_boot) / np.maximum(count, 1)
-    order = np.lexsort((x, replicate))
-    xs = x[order]
-    start = np.r_[0, np.cumsum(count)[:-1]]
-    lo = start + (count - 1) // 2
-    hi = start + count // 2
-    median = 0.5 * (xs[np.minimum(lo, len(xs) - 1)] + xs[np.minimum(hi, len(xs) - 1)])
+    order = np.argsort(values, kind="stable")
+    rank = np.empty(n, dtype=np.int64)
+    rank[order] = np.arange(n)
+    per_rank = np.bincount(replicate * n + rank[rows], minlength=n_boot * n).reshape(n_boot, n)
+    cumulative = np.cumsum(per_rank, axis=1)
+    lo_k = (count - 1) // 2  # 0-based order statistics around the middle
+    hi_k = count // 2
+    lo = np.minimum((cumulative <= lo_k[:, None]).sum(axis=1), n - 1)
+    hi = np.minimum((cumulative <= hi_k[:, None]).sum(axis=1), n - 1)
+    sorted_values = values[order]
+    median = 0.5 * (sorted_values[lo] + sorted_values[hi])
     empty = count == 0
     mean[empty] = np.nan
     median[empty] = np.nan
     return mean, median
+
+
+def bootstrap_mean_median(values, subject, session, *, n_boot: int, rng: np.random.Generator,
+                          levels: tuple[str, ...] = ("subject", "session", "unit"),
+                          max_draws: int = 4_000_000):
+    """Replicate means and medians, drawn in chunks of replicates to bound memory."""
+    values = np.asarray(values, dtype=float)
+    per_chunk = max(1, min(n_boot, max_draws // max(len(values), 1)))
+    means, medians = [], []
+    done = 0
+    while done < n_boot:
+        b = min(per_chunk, n_boot - done)
+        rows, rep = hierarchical_resample_indices(subject, session, n_boot=b, rng=rng,
+                                                  levels=levels)
+        m, med = replicate_stats(values, rows, rep, b)
+        means.append(m)
+        medians.append(med)
+        done += b
+    return np.concatenate(means), np.concatenate(medians)

@@ -129,11 +129,13 @@ def population_fano_table(timecourse: pd.DataFrame, *, settings: MeanMatchSettin
         if enough.any():
             mm, kept = mean_matched_slopes(m, v, n_bins=settings.n_bins,
                                            n_repeats=settings.n_repeats, rng=rng)
-            boot_idx = rng.integers(0, n_units, size=(settings.n_boot, n_units))
-            boot_reg = slope_through_origin(m[boot_idx], v[boot_idx], axis=1)
-            boot_mm = np.stack([mean_matched_slopes(m[i], v[i], n_bins=settings.n_bins,
-                                                    n_repeats=1, rng=rng)[0]
-                                for i in boot_idx])
+            boot_reg = np.empty((settings.n_boot, m.shape[1]))
+            boot_mm = np.empty((settings.n_boot, m.shape[1]))
+            for b in range(settings.n_boot):  # one resample at a time bounds memory
+                i = rng.integers(0, n_units, size=n_units)
+                boot_reg[b] = slope_through_origin(m[i], v[i], axis=0)
+                boot_mm[b] = mean_matched_slopes(m[i], v[i], n_bins=settings.n_bins,
+                                                 n_repeats=1, rng=rng)[0]
         else:
             mm = kept = np.full(m.shape[1], np.nan)
             boot_reg = boot_mm = np.full((2, m.shape[1]), np.nan)
