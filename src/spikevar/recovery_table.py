@@ -33,6 +33,7 @@ class RecoverySettings:
     slow_rate_bandwidth_s: float = 2.0
     modulated_fit: bool = True
     tau_interval: bool = True
+    modulated_tau_interval: bool = False
 
 
 def _row(unit: str, fit: Fit, iv: Intervals | None, kind: str) -> dict:
@@ -80,7 +81,7 @@ def unit_recovery_rows(unit: str, times: np.ndarray, *, span_s: tuple[float, flo
     if settings.modulated_fit:
         fit, weighted = fit_exp_recovery_modulated(
             times, span_s=span_s, bandwidth_s=settings.slow_rate_bandwidth_s,
-            with_interval=settings.tau_interval)
+            with_interval=settings.modulated_tau_interval)
         rows.append(_row(unit, fit, weighted, "slow_rate_modulated"))
     return rows
 

@@ -59,6 +59,8 @@ def median_within_unit_isi(unit_codes: np.ndarray, times_s: np.ndarray) -> float
     same = unit_codes[1:] == unit_codes[:-1]
     isi = np.diff(times_s)[same]
     isi = isi[isi > 0]
+    if len(isi) > 1_000_000:  # the median of an evenly spaced subsample is plenty here
+        isi = isi[:: len(isi) // 1_000_000]
     return float(np.median(isi)) if len(isi) else float("nan")
 
 
