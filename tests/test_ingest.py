@@ -240,3 +240,11 @@ def test_failed_events_leave_no_spikes_output(tmp_path):
     ev = tmp_path / "ev.csv"
     ev.write_text("time,condition\nabc,dim\n")
     expect_error(tmp_path, path, "Non-numeric", events_path=ev)
+
+
+def test_integer_unit_ids_sort_by_value(tmp_path):
+    path = tmp_path / "spk.csv"
+    pd.DataFrame({"unit": [10, 2, 2, 10, 1], "time": [0.1, 0.2, 0.3, 0.4, 0.5]}).to_csv(
+        path, index=False)
+    spikes, _, _ = run(tmp_path, path)
+    assert spikes["unit"].tolist() == ["1", "2", "2", "10", "10"]

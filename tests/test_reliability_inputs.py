@@ -34,7 +34,11 @@ def check_valid_output(out):
     table = pq.read_table(out / "spikes.parquet").to_pandas()
     assert table["time_s"].notna().all() and np.isfinite(table["time_s"]).all()
     assert (table["time_s"] >= 0).all()
-    key = list(zip(table["unit"], table["time_s"], strict=True))
+    from spikevar.spike_arrays import unit_sort_order
+
+    labels = np.array(sorted(set(table["unit"])))
+    rank = {label: i for i, label in enumerate(labels[unit_sort_order(labels)])}
+    key = list(zip(table["unit"].map(rank), table["time_s"], strict=True))
     assert key == sorted(key)
     return table
 

@@ -1,7 +1,8 @@
 """Turn one session's raw spike and event tables into the normalised Parquet contract.
 
 Output ``spikes.parquet``: ``unit`` (string), ``time_s`` (float64 seconds), sorted by unit then
-time. Output ``events.parquet``: ``time_s``, ``condition`` (string), plus the raw table's other
+time (units by integer value when every id is an integer, else as text). Output
+``events.parquet``: ``time_s``, ``condition`` (string), plus the raw table's other
 columns. Both carry key-value metadata: source path, sha256, declared time unit, row counts.
 """
 
@@ -19,6 +20,7 @@ import pyarrow.compute as pc
 from spikevar import readers, time_units
 from spikevar.errors import SpikevarInputError
 from spikevar.parquet_io import sha256_of_file, write_parquet_atomic
+from spikevar.spike_arrays import unit_sort_order
 
 log = logging.getLogger(__name__)
 
@@ -97,6 +99,8 @@ def _numeric_times(column: pa.ChunkedArray, *, name: str, text: bool) -> np.ndar
         if as_text.isna().any():
             bad_text |= as_text.isna().to_numpy()
     where = f"column {name!r}"
+    if not bad_text.any() and np.isfinite(values).all() and not (values < 0).any():
+        return values
     if bad_text.any():
         raise SpikevarInputError(
             f"Non-numeric time value(s) at row(s) {_row_list(bad_text, text=text)}.",
@@ -157,34 +161,36 @@ def normalise_spikes(
     labels = encoded.dictionary.to_numpy(zero_copy_only=False).astype(str)
     codes = encoded.indices.to_numpy(zero_copy_only=False)
     rank = np.empty(len(labels), dtype=np.int64)
-    rank[np.argsort(labels, kind="stable")] = np.arange(len(labels))
+    rank[unit_sort_order(labels)] = np.arange(len(labels))
     unit_rank = rank[codes]
 
-    step_unit = np.diff(unit_rank)
-    in_order = bool(np.all((step_unit > 0) | ((step_unit == 0) & (np.diff(seconds) >= 0))))
+    d_unit, d_time = np.diff(unit_rank), np.diff(seconds)
+    in_order = not (np.any(d_unit < 0) or np.any((d_unit == 0) & (d_time < 0)))
     order = None
     if not in_order:
         # tables are usually grouped by unit with times in order, only the units in another
-        # order (e.g. numeric ids, while ids sort as text): a stable sort by unit is then
-        # enough (and fast on such runs); otherwise sort by unit and time.
+        # order: a stable sort by unit is then enough (and fast on such runs); otherwise sort
+        # by unit and time.
         order = np.argsort(unit_rank, kind="stable")
         unit_rank, seconds = unit_rank[order], seconds[order]
-        same = np.diff(unit_rank) == 0
-        if np.any(same & (np.diff(seconds) < 0)):
+        d_unit, d_time = np.diff(unit_rank), np.diff(seconds)
+        if np.any((d_unit == 0) & (d_time < 0)):
             second = np.lexsort((seconds, unit_rank))
             order = order[second]
             unit_rank, seconds = unit_rank[second], seconds[second]
+            d_unit, d_time = np.diff(unit_rank), np.diff(seconds)
         report.was_sorted = False
-    dup = np.concatenate([[False], (np.diff(unit_rank) == 0) & (np.diff(seconds) == 0)])
+    dup = (d_unit == 0) & (d_time == 0)
     if dup.any():
         report.duplicates_dropped = int(dup.sum())
-        keep = np.flatnonzero(~dup)
+        keep = np.flatnonzero(~np.concatenate([[False], dup]))
         order = keep if order is None else order[keep]
-        unit_rank, seconds = unit_rank[~dup], seconds[~dup]
+        unit_rank, seconds = unit_rank[keep], seconds[keep]
+        d_unit, d_time = np.diff(unit_rank), np.diff(seconds)
 
     time_units.check_plausible_unit(
         span_s=float(seconds.max()),
-        median_isi_s=time_units.median_within_unit_isi(unit_rank, seconds),
+        median_isi_s=time_units.median_isi_from_diffs(d_unit, d_time),
         time_unit=time_unit)
 
     # the unit column is taken from the Arrow strings (no Python string objects per spike)

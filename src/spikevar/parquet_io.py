@@ -39,7 +39,7 @@ def write_parquet_atomic(table: pa.Table, path: str | os.PathLike, *, metadata: 
     fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=path.parent)
     os.close(fd)
     try:
-        pq.write_table(table, tmp, compression="zstd")
+        pq.write_table(table, tmp, compression="zstd", compression_level=1)
         with open(tmp, "rb+") as handle:
             os.fsync(handle.fileno())
         os.replace(tmp, path)

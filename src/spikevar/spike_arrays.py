@@ -12,6 +12,20 @@ import pyarrow.parquet as pq
 from spikevar.errors import SpikevarInputError
 
 
+def unit_sort_order(labels: np.ndarray) -> np.ndarray:
+    """Order of unit ids: by integer value when every id is an integer, else as text.
+
+    Sorters often number units 0, 1, 2, ...; "2" then comes before "10". Ties in value
+    ("3" and "003") are broken by the text.
+    """
+    labels = np.asarray(labels).astype(str)
+    if len(labels) and all(label.strip().lstrip("+-").isdigit() for label in labels):
+        values = np.array([int(label) for label in labels], dtype=object)
+        as_float = np.array([float(v) for v in values])
+        return np.lexsort((labels, as_float))
+    return np.argsort(labels, kind="stable")
+
+
 @dataclass(frozen=True)
 class SpikeArrays:
     """Spikes sorted by unit then time.
@@ -44,6 +58,10 @@ class SpikeArrays:
         units = np.asarray(units).astype(str)
         times = np.asarray(times, dtype=np.float64)
         labels, codes = np.unique(units, return_inverse=True)
+        order = unit_sort_order(labels)
+        rank = np.empty(len(order), dtype=np.int64)
+        rank[order] = np.arange(len(order))
+        labels, codes = labels[order], rank[codes]
         order = np.lexsort((times, codes))
         return cls(labels=labels, codes=codes[order].astype(np.int64), times=times[order])
 
@@ -64,7 +82,7 @@ def load_spikes(path: str | Path, *, session: str | None = None) -> SpikeArrays:
     labels = unit.chunk(0).dictionary.to_numpy(zero_copy_only=False).astype(str)
     codes = np.concatenate([c.indices.to_numpy(zero_copy_only=False) for c in unit.chunks])
     times = table.column("time_s").to_numpy()
-    order = np.argsort(labels, kind="stable")
+    order = unit_sort_order(labels)
     if not np.array_equal(order, np.arange(len(labels))):
         rank = np.empty_like(order)
         rank[order] = np.arange(len(order))

@@ -49,18 +49,19 @@ def to_seconds(raw: np.ndarray, *, time_unit: str, sampling_rate_hz: float | Non
     raw = np.asarray(raw, dtype=np.float64)
     if time_unit == "samples":
         return raw / float(sampling_rate_hz)
-    return raw * factor
+    return raw if factor == 1.0 else raw * factor
 
 
-def median_within_unit_isi(unit_codes: np.ndarray, times_s: np.ndarray) -> float:
-    """Median ISI over all units, from arrays sorted by unit then time (NaN if no ISI)."""
-    if len(times_s) < 2:
-        return float("nan")
-    same = unit_codes[1:] == unit_codes[:-1]
-    isi = np.diff(times_s)[same]
-    isi = isi[isi > 0]
-    if len(isi) > 1_000_000:  # the median of an evenly spaced subsample is plenty here
-        isi = isi[:: len(isi) // 1_000_000]
+def median_isi_from_diffs(d_unit: np.ndarray, d_time: np.ndarray,
+                          max_samples: int = 1_000_000) -> float:
+    """Median within-unit ISI from precomputed neighbour differences (unit codes, times).
+
+    Long recordings use an evenly spaced subsample of the intervals, plenty for a plausibility
+    check.
+    """
+    step = max(1, len(d_time) // max_samples)
+    d_unit, d_time = d_unit[::step], d_time[::step]
+    isi = d_time[(d_unit == 0) & (d_time > 0)]
     return float(np.median(isi)) if len(isi) else float("nan")
 
 
