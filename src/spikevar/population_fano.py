@@ -7,13 +7,16 @@ across-trial ``mean_count`` and ``var_count``). For every group x condition x wi
   (ordinary least squares: ``sum m v / sum m^2``).
 * ``fano_mean_matched``: the same slope after mean matching (Churchland et al. 2010, Nat
   Neurosci 13:369; procedure as recalled from memory): the units' mean counts are binned
-  (``n_bins`` equal bins over the observed range); the greatest common distribution is the
+  (``n_bins`` equal bins over the observed range, one grid for the point estimate and all
+  resamples); the greatest common distribution is the
   bin-wise minimum of the histograms over all windows; at each window, units are randomly
   discarded within each bin down to that common count; the slope is computed on the kept units.
   This is repeated ``n_repeats`` times with a fixed seed and averaged. A change of the
   mean-matched value over time cannot be caused by a change of the mean-count distribution.
-* ``ci_lo``/``ci_hi``: 95% percentile interval of the mean-matched value (and
-  ``regression_ci_lo``/``_hi`` of the regression value) from ``n_boot`` resamples of units.
+* ``ci_lo``/``ci_hi``: 95% percentile interval of the mean-matched value from ``n_boot``
+  resamples of units (each resample draws units with replacement and keeps those kept by one of
+  the ``n_repeats`` matchings, in turn, so the interval is conditional on the matching);
+  ``regression_ci_lo``/``_hi``: the same resamples for the regression value.
 """
 
 from __future__ import annotations
@@ -71,30 +74,37 @@ def mean_match_mask(bins: np.ndarray, hist: np.ndarray, common: np.ndarray,
     return keep
 
 
+def mean_count_bins(mean: np.ndarray, var: np.ndarray, n_bins: int):
+    """Bin index of each (unit, window) mean count on ``n_bins`` equal bins over the observed
+    range; -1 where mean or variance is undefined."""
+    finite = np.isfinite(mean) & np.isfinite(var)
+    if not finite.any():
+        return np.full(mean.shape, -1)
+    lo, hi = mean[finite].min(), mean[finite].max()
+    edges = np.linspace(lo, hi if hi > lo else lo + 1.0, n_bins + 1)
+    bins = np.clip(np.searchsorted(edges, np.where(finite, mean, lo), side="right") - 1, 0,
+                   n_bins - 1)
+    return np.where(finite, bins, -1)
+
+
 def mean_matched_slopes(mean: np.ndarray, var: np.ndarray, *, n_bins: int, n_repeats: int,
-                        rng: np.random.Generator) -> tuple[np.ndarray, np.ndarray]:
+                        rng: np.random.Generator, bins: np.ndarray | None = None):
     """Mean-matched slope for every window. ``mean``/``var``: (units, windows).
 
-    Returns the slope per window (averaged over repeats) and the number of units kept per
-    window. Vectorised: a random key per (repeat, unit, window); within each (window, bin) the
-    units with the smallest keys are kept, up to the common count of that bin.
+    Returns the slope per window (averaged over repeats), the number of units kept per window
+    and the keep masks of the repeats (units, windows), which the interval reuses.
     """
     n_units, n_win = mean.shape
-    finite = np.isfinite(mean) & np.isfinite(var)
-    lo, hi = np.nanmin(np.where(finite, mean, np.nan)), np.nanmax(np.where(finite, mean, np.nan))
-    edges = np.linspace(lo, hi if hi > lo else lo + 1.0, n_bins + 1)
-    bins = np.clip(np.searchsorted(edges, mean, side="right") - 1, 0, n_bins - 1)
-    bins = np.where(finite, bins, -1)
-    hist = np.stack([np.bincount(bins[:, w][bins[:, w] >= 0], minlength=n_bins)
-                     for w in range(n_win)])  # (windows, bins)
+    if bins is None:
+        bins = mean_count_bins(mean, var, n_bins)
+    usable = bins >= 0
+    key = (bins + n_bins * np.arange(n_win)[None, :])[usable]
+    hist = np.bincount(key, minlength=n_win * n_bins).reshape(n_win, n_bins)
     common = hist.min(axis=0)
-    slopes = np.zeros((n_repeats, n_win))
-    kept_n = int(common.sum())
-    for r in range(n_repeats):
-        keep = mean_match_mask(bins, hist, common, rng)
-        slopes[r] = slope_through_origin(np.where(keep, mean, np.nan),
-                                         np.where(keep, var, np.nan), axis=0)
-    return slopes.mean(axis=0), np.full(n_win, kept_n)
+    masks = [mean_match_mask(bins, hist, common, rng) for _ in range(n_repeats)]
+    slopes = np.stack([slope_through_origin(np.where(k, mean, np.nan),
+                                            np.where(k, var, np.nan), axis=0) for k in masks])
+    return slopes.mean(axis=0), np.full(n_win, int(common.sum())), masks
 
 
 def population_fano_table(timecourse: pd.DataFrame, *, settings: MeanMatchSettings,
@@ -127,15 +137,17 @@ def population_fano_table(timecourse: pd.DataFrame, *, settings: MeanMatchSettin
         n_units = m.shape[0]
         enough = usable >= settings.min_units
         if enough.any():
-            mm, kept = mean_matched_slopes(m, v, n_bins=settings.n_bins,
-                                           n_repeats=settings.n_repeats, rng=rng)
+            mm, kept, masks = mean_matched_slopes(m, v, n_bins=settings.n_bins,
+                                                  n_repeats=settings.n_repeats, rng=rng)
             boot_reg = np.empty((settings.n_boot, m.shape[1]))
             boot_mm = np.empty((settings.n_boot, m.shape[1]))
             for b in range(settings.n_boot):  # one resample at a time bounds memory
                 i = rng.integers(0, n_units, size=n_units)
                 boot_reg[b] = slope_through_origin(m[i], v[i], axis=0)
-                boot_mm[b] = mean_matched_slopes(m[i], v[i], n_bins=settings.n_bins,
-                                                 n_repeats=1, rng=rng)[0]
+                # resample the units kept by one of the matchings (cycling through them)
+                keep = masks[b % len(masks)][i]
+                boot_mm[b] = slope_through_origin(np.where(keep, m[i], np.nan),
+                                                  np.where(keep, v[i], np.nan), axis=0)
         else:
             mm = kept = np.full(m.shape[1], np.nan)
             boot_reg = boot_mm = np.full((2, m.shape[1]), np.nan)
