@@ -25,7 +25,9 @@ include: "workflow/rules/ingest.smk"
 include: "workflow/rules/metrics.smk"
 include: "workflow/rules/recovery.smk"
 include: "workflow/rules/cohort.smk"
+include: "workflow/rules/statistics.smk"
 include: "workflow/rules/figures.smk"
+include: "workflow/rules/handoff.smk"
 
 
 localrules:

@@ -1,4 +1,4 @@
-# Stage 5: the cohort figure set.
+# Stage 6: the cohort figure set.
 
 COHORT_FIGURES = ["population_fano", "unit_metrics", "fano_by_window", "tau_vs_cv", "quality"]
 
