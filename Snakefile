@@ -39,7 +39,7 @@ rule all:
         expand(
             f"{RESULTS}/sessions/{{session}}/{{table}}.parquet",
             session=SESSIONS,
-            table=["units", "count_fano", "fano_timecourse", "recovery"],
+            table=SESSION_TABLES,
         ),
         expand(f"{RESULTS}/figures/sessions/{{session}}_recovery.png", session=SESSIONS),
         expand(f"{RESULTS}/figures/{{figure}}.png", figure=COHORT_FIGURES),

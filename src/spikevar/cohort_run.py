@@ -10,9 +10,8 @@ import pyarrow as pa
 
 from spikevar.figures_cohort import draw_cohort_figures
 from spikevar.group_stats import group_summary, unit_metric_frame
-from spikevar.parquet_io import read_parquet_checked, write_parquet_atomic
+from spikevar.parquet_io import frame_to_arrow, read_parquet_checked, write_parquet_atomic
 from spikevar.population_fano import MeanMatchSettings, population_fano_table
-from spikevar.session_metrics import to_arrow
 
 log = logging.getLogger(__name__)
 
@@ -27,7 +26,8 @@ def read_frame(path) -> pd.DataFrame:
 def run_population_fano(*, timecourse_path, output, settings: dict, seed: int) -> None:
     timecourse = read_frame(timecourse_path)
     table = population_fano_table(timecourse, settings=MeanMatchSettings(**settings), seed=seed)
-    write_parquet_atomic(to_arrow(table), output, metadata={"settings": settings, "seed": seed})
+    write_parquet_atomic(frame_to_arrow(table), output,
+                         metadata={"settings": settings, "seed": seed})
     log.info("population Fano factor: %d rows", len(table))
 
 
@@ -36,8 +36,8 @@ def run_group_summary(*, units, count_fano, recovery, summary_out, differences_o
     frame = unit_metric_frame(read_frame(units), read_frame(count_fano), read_frame(recovery))
     summary, differences = group_summary(frame, n_boot=n_boot, seed=seed)
     meta = {"n_boot": n_boot, "seed": seed, "levels": "subject > session > unit"}
-    write_parquet_atomic(to_arrow(summary), summary_out, metadata=meta)
-    write_parquet_atomic(to_arrow(differences), differences_out, metadata=meta)
+    write_parquet_atomic(frame_to_arrow(summary), summary_out, metadata=meta)
+    write_parquet_atomic(frame_to_arrow(differences), differences_out, metadata=meta)
     log.info("group summary: %d rows; differences: %d rows", len(summary), len(differences))
 
 

@@ -12,6 +12,9 @@ import pyarrow.parquet as pq
 
 from spikevar.parquet_io import METADATA_KEY, read_parquet_checked
 
+#: per-session tables that are concatenated into cohort tables
+SESSION_TABLES = ("units", "count_fano", "fano_timecourse", "recovery")
+
 
 def _with_metadata(table: pa.Table, meta: dict[str, str], meta_columns: list[str]) -> pa.Table:
     n = table.num_rows

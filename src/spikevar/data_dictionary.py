@@ -139,11 +139,6 @@ TABLES: dict[str, dict[str, tuple[str, str, str]]] = {
     },
 }
 
-#: tables that carry the sheet metadata columns in front
-WITH_META = ("units", "count_fano", "fano_timecourse", "recovery")
-#: tables that carry only ``group`` in front
-WITH_GROUP = ("population_fano", "group_summary")
-
 
 def describe(table: str, column: str) -> tuple[str, str, str]:
     """Meaning, unit and method of a column (sheet metadata included)."""

@@ -13,11 +13,10 @@ import re
 from pathlib import Path
 
 from spikevar.cohort_run import write_failed_sessions
-from spikevar.cohort_tables import assemble_cohort_table
+from spikevar.cohort_tables import SESSION_TABLES, assemble_cohort_table
 
 log = logging.getLogger(__name__)
 
-SESSION_TABLES = ("units", "count_fano", "fano_timecourse", "recovery")
 STEPS = (("ingest", "spikes.parquet"), ("metrics", "units.parquet"),
          ("recovery", "recovery.parquet"))
 ERROR_LINE = re.compile(r"ERROR spikevar: (.*)$")

@@ -15,6 +15,16 @@ def _group_colours(groups):
     return {g: figure_style.SERIES[i % len(figure_style.SERIES)] for i, g in enumerate(groups)}
 
 
+def _finish(fig, ax, path, *, xlabel: str, ylabel: str, title: str) -> None:
+    """Label a single-panel figure, add its legend and save it (PNG + SVG)."""
+    ax.set_xlabel(xlabel)
+    ax.set_ylabel(ylabel)
+    ax.set_title(title, loc="left")
+    ax.legend(fontsize=7)
+    fig.tight_layout()
+    figure_style.save(fig, path)
+
+
 def population_fano_figure(pop: pd.DataFrame, path) -> None:
     """Mean-matched and regression Fano factor over event-aligned time, per group/condition."""
     import matplotlib.pyplot as plt
@@ -106,12 +116,8 @@ def fano_window_figure(count_fano: pd.DataFrame, units: pd.DataFrame, path) -> N
         ax.axhline(cv2, color=c, ls=(0, (4, 2, 1, 2)), lw=1.0, label=f"{g}: median ISI CV²")
     ax.axhline(1.0, color=figure_style.INK, lw=1.0, ls=":", label="Poisson (FF = 1)")
     ax.set_xscale("log")
-    ax.set_xlabel("counting window (s, log scale)")
-    ax.set_ylabel("count Fano factor")
-    ax.set_title("Count Fano factor by counting window", loc="left")
-    ax.legend(fontsize=7)
-    fig.tight_layout()
-    figure_style.save(fig, path)
+    _finish(fig, ax, path, xlabel="counting window (s, log scale)", ylabel="count Fano factor",
+            title="Count Fano factor by counting window")
 
 
 def tau_cv_figure(frame: pd.DataFrame, path) -> None:
@@ -128,12 +134,9 @@ def tau_cv_figure(frame: pd.DataFrame, path) -> None:
                    marker=figure_style.MARKERS[i], s=22, alpha=0.75, edgecolor="white",
                    linewidth=0.4, label=f"{g} (n = {len(part)})")
     ax.set_yscale("log")
-    ax.set_xlabel("ISI coefficient of variation")
-    ax.set_ylabel("recovery time constant τ (ms, log scale)")
-    ax.set_title("Refractory recovery against firing irregularity", loc="left")
-    ax.legend(fontsize=7)
-    fig.tight_layout()
-    figure_style.save(fig, path)
+    _finish(fig, ax, path, xlabel="ISI coefficient of variation",
+            ylabel="recovery time constant τ (ms, log scale)",
+            title="Refractory recovery against firing irregularity")
 
 
 def quality_figure(units: pd.DataFrame, recovery: pd.DataFrame, path) -> None:

@@ -77,12 +77,12 @@ def _git_commit(repo: Path) -> str:
 
 def write_manifest(*, sheet: list[dict], config: dict, repo: Path, path: Path) -> None:
     """Inputs with sha256, the resolved config, package versions, version/commit, run time."""
-    inputs = []
+    inputs, seen = [], set()
     for row in sheet:
         for column in ("spikes", "events"):
             value = row.get(column)
-            if value and {"session": row["session"], "path": value} not in \
-                    [{"session": i["session"], "path": i["path"]} for i in inputs]:
+            if value and (row["session"], value) not in seen:  # an NWB file may hold both
+                seen.add((row["session"], value))
                 inputs.append({"session": row["session"], "role": column, "path": value,
                                "sha256": sha256_of_file(value)})
     versions = {}

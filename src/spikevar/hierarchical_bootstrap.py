@@ -26,7 +26,8 @@ def hierarchical_resample_indices(subject, session, *, n_boot: int, rng: np.rand
     subject, session
         One label per unit (row).
     levels
-        Resampling levels; ``("unit",)`` gives the naive unit-level bootstrap.
+        ``("subject", "session", "unit")`` (hierarchical) or ``("unit",)`` (the naive
+        unit-level bootstrap, for comparison).
 
     Returns
     -------
@@ -38,6 +39,8 @@ def hierarchical_resample_indices(subject, session, *, n_boot: int, rng: np.rand
     if levels == ("unit",):
         rows = rng.integers(0, n, size=(n_boot, n))
         return rows.ravel(), np.repeat(np.arange(n_boot), n)
+    if levels != ("subject", "session", "unit"):
+        raise ValueError(f"unsupported resampling levels {levels}")
     subj = _codes(subject)
     sess = _codes(pd.Series(subject).astype(str) + "\x00" + pd.Series(session).astype(str))
     order = np.lexsort((sess, subj))
@@ -59,9 +62,6 @@ def hierarchical_resample_indices(subject, session, *, n_boot: int, rng: np.rand
     base = np.repeat(subj_first_sess[chosen_subj], k_sess)
     draw = np.floor(rng.random(len(base)) * np.repeat(k_sess, k_sess)).astype(np.int64)
     chosen_sess = base + draw
-    if "session" not in levels:
-        chosen_sess = base + (np.arange(len(base)) - np.repeat(np.cumsum(k_sess) - k_sess,
-                                                               k_sess))
     # level 3: units within each chosen session
     k_unit = sess_n_units[chosen_sess]
     rep3 = np.repeat(rep2, k_unit)

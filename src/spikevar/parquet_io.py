@@ -16,6 +16,14 @@ from spikevar.errors import SpikevarInputError
 METADATA_KEY = b"spikevar"
 
 
+def frame_to_arrow(frame) -> pa.Table:
+    """pandas -> Arrow with text columns as ``string`` (also all-empty and large-string ones)."""
+    table = pa.Table.from_pandas(frame, preserve_index=False)
+    fields = [pa.field(f.name, pa.string()) if pa.types.is_null(f.type) or
+              pa.types.is_large_string(f.type) else f for f in table.schema]
+    return table.cast(pa.schema(fields))
+
+
 def sha256_of_file(path: str | os.PathLike, *, chunk_bytes: int = 1 << 20) -> str:
     """Hex sha256 of a file, read in chunks (opened read-only)."""
     digest = hashlib.sha256()

@@ -31,6 +31,8 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import optimize, stats
 
+from spikevar.slow_rate import interval_weights
+
 MODELS = ("poisson", "dead_time", "exp_recovery")
 N_PARAMS = {"poisson": 1, "dead_time": 2, "exp_recovery": 3}
 #: beyond this many time constants the recovery is complete to double precision (exp(-36) < eps)
@@ -311,8 +313,6 @@ def fit_exp_recovery_modulated(times: np.ndarray, *, span_s: tuple[float, float]
     The first pass uses the output rate itself. Returns the fit and the weighted intervals
     (for time rescaling).
     """
-    from spikevar.slow_rate import interval_weights
-
     isi = np.diff(times)
     censored = span_s[1] - times[-1]
     tau = d = None

@@ -3,11 +3,12 @@
 from __future__ import annotations
 
 import logging
-from dataclasses import dataclass
+from dataclasses import asdict, dataclass
 
 import numpy as np
 import pandas as pd
 
+from spikevar.parquet_io import frame_to_arrow, write_parquet_atomic
 from spikevar.recovery_fit import (
     Fit,
     Intervals,
@@ -16,7 +17,8 @@ from spikevar.recovery_fit import (
     ks_uniform,
     rescaled_intervals,
 )
-from spikevar.spike_arrays import SpikeArrays
+from spikevar.session_metrics import recording_span
+from spikevar.spike_arrays import SpikeArrays, load_spikes
 
 log = logging.getLogger(__name__)
 
@@ -106,17 +108,11 @@ def recovery_table(spikes: SpikeArrays, *, span_s: tuple[float, float],
 def run_session_recovery(*, session: str, spikes_path, output: str, settings: RecoverySettings,
                          duration_s: float | None = None) -> None:
     """Fit every unit of a session and write ``recovery.parquet`` atomically."""
-    from dataclasses import asdict
-
-    from spikevar.parquet_io import write_parquet_atomic
-    from spikevar.session_metrics import recording_span, to_arrow
-    from spikevar.spike_arrays import load_spikes
-
     spikes = load_spikes(spikes_path, session=session)
     span = recording_span(spikes, duration_s)
     table = recovery_table(spikes, span_s=span, settings=settings)
     table.insert(0, "session", session)
-    write_parquet_atomic(to_arrow(table), output,
+    write_parquet_atomic(frame_to_arrow(table), output,
                          metadata={"session": session, "settings": asdict(settings),
                                    "span_s": span})
     log.info("session %s: recovery fits for %d units written.", session, spikes.n_units)

@@ -8,12 +8,11 @@ from pathlib import Path
 
 import numpy as np
 import pandas as pd
-import pyarrow as pa
 
 from spikevar.count_fano import count_fano_table
 from spikevar.fano_timecourse import SlidingWindows, fano_timecourse_table
 from spikevar.isi_metrics import unit_isi_table
-from spikevar.parquet_io import read_parquet_checked, write_parquet_atomic
+from spikevar.parquet_io import frame_to_arrow, read_parquet_checked, write_parquet_atomic
 from spikevar.spike_arrays import SpikeArrays, load_spikes
 
 log = logging.getLogger(__name__)
@@ -67,14 +66,6 @@ def compute_tables(spikes: SpikeArrays, events: pd.DataFrame, *, settings: Metri
     return {"units": units, "count_fano": counts, "fano_timecourse": timecourse}
 
 
-def to_arrow(frame: pd.DataFrame) -> pa.Table:
-    """pandas -> Arrow with text columns as string (also for all-empty columns)."""
-    table = pa.Table.from_pandas(frame, preserve_index=False)
-    fields = [pa.field(f.name, pa.string()) if pa.types.is_null(f.type) or
-              pa.types.is_large_string(f.type) else f for f in table.schema]
-    return table.cast(pa.schema(fields))
-
-
 def run_session_metrics(*, session: str, spikes_path, events_path, outputs: dict[str, str],
                         settings: MetricSettings, duration_s: float | None = None) -> None:
     """Read a session's normalised tables, compute the metrics, write each table atomically."""
@@ -84,7 +75,7 @@ def run_session_metrics(*, session: str, spikes_path, events_path, outputs: dict
     meta = {"session": session, "settings": asdict(settings), "duration_s": duration_s}
     for name, frame in tables.items():
         frame.insert(0, "session", session)
-        write_parquet_atomic(to_arrow(frame), Path(outputs[name]), metadata=meta)
+        write_parquet_atomic(frame_to_arrow(frame), Path(outputs[name]), metadata=meta)
     few = int((tables["units"]["isi_reason"] != "").sum())
     log.info("session %s: %d units (%d without ISI metrics), %d count rows, %d timecourse rows",
              session, len(tables["units"]), few, len(tables["count_fano"]),

@@ -20,9 +20,8 @@ def unit_sort_order(labels: np.ndarray) -> np.ndarray:
     """
     labels = np.asarray(labels).astype(str)
     if len(labels) and all(label.strip().lstrip("+-").isdigit() for label in labels):
-        values = np.array([int(label) for label in labels], dtype=object)
-        as_float = np.array([float(v) for v in values])
-        return np.lexsort((labels, as_float))
+        values = np.array([int(label) for label in labels], dtype=float)
+        return np.lexsort((labels, values))
     return np.argsort(labels, kind="stable")
 
 

@@ -1,8 +1,5 @@
 # Stage 4: cohort tables (per-session tables concatenated, with the sheet's metadata).
 
-SESSION_TABLES = ["units", "count_fano", "fano_timecourse", "recovery"]
-
-
 rule cohort_table:
     input:
         lambda w: expand(

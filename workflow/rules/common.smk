@@ -1,6 +1,7 @@
 # Shared set-up: the checked sessions sheet and small helpers for input functions.
 from snakemake.exceptions import WorkflowError
 
+from spikevar.cohort_tables import SESSION_TABLES
 from spikevar.errors import SpikevarInputError
 from spikevar.provenance import code_fingerprint
 from spikevar.sheet import load_sheet

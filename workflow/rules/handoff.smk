@@ -5,8 +5,7 @@ rule handoff:
     input:
         tables=expand(
             f"{RESULTS}/cohort/{{table}}.parquet",
-            table=SESSION_TABLES
-            + ["population_fano", "group_summary", "group_differences"],
+            table=[*SESSION_TABLES, "population_fano", "group_summary", "group_differences"],
         ),
     output:
         failed=f"{RESULTS}/cohort/failed_sessions.parquet",
