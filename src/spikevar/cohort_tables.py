@@ -3,14 +3,13 @@
 from __future__ import annotations
 
 import os
-import tempfile
 from pathlib import Path
 
 import pyarrow as pa
 import pyarrow.csv as pacsv
 import pyarrow.parquet as pq
 
-from spikevar.parquet_io import METADATA_KEY, read_parquet_checked
+from spikevar.parquet_io import METADATA_KEY, publish, read_parquet_checked, temporary_sibling
 
 #: per-session tables that are concatenated into cohort tables
 SESSION_TABLES = ("units", "count_fano", "fano_timecourse", "recovery")
@@ -71,8 +70,8 @@ def assemble_cohort_table(inputs: dict[str, str], metadata: dict[str, dict[str, 
              for s, sch in zip(sessions, schemas, strict=True)]
     schema = _unify(probe) if probe else pa.schema([(c, pa.string()) for c in meta_columns])
     schema = schema.with_metadata({METADATA_KEY: b'{"kind": "cohort table"}'})
-    tmp = Path(tempfile.mkstemp(prefix=f".{output.name}.", dir=output.parent)[1])
-    tmp_csv = Path(tempfile.mkstemp(prefix=".csv.", dir=output.parent)[1]) if csv_output else None
+    tmp = temporary_sibling(output)
+    tmp_csv = temporary_sibling(Path(csv_output)) if csv_output else None
     rows = 0
     try:
         with pq.ParquetWriter(tmp, schema, compression="zstd") as writer:
@@ -86,9 +85,9 @@ def assemble_cohort_table(inputs: dict[str, str], metadata: dict[str, dict[str, 
                 rows += table.num_rows
             if csv_writer is not None:
                 csv_writer.close()
-        os.replace(tmp, output)
+        publish(tmp, output)
         if tmp_csv is not None:
-            os.replace(tmp_csv, csv_output)
+            publish(tmp_csv, Path(csv_output))
     finally:
         tmp.unlink(missing_ok=True)
         if tmp_csv is not None:

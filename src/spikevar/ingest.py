@@ -18,14 +18,17 @@ import pandas as pd
 import pyarrow as pa
 import pyarrow.compute as pc
 
-from spikevar import readers, time_units
+from spikevar import ordered_scan, readers, time_units
 from spikevar.errors import SpikevarInputError
-from spikevar.parquet_io import sha256_of_file, write_parquet_atomic
+from spikevar.parquet_io import SPIKE_TABLE_OPTIONS, sha256_of_file, write_parquet_atomic
 from spikevar.spike_arrays import unit_sort_order
 
 log = logging.getLogger(__name__)
 
-SPIKES_SCHEMA = pa.schema([("unit", pa.string()), ("time_s", pa.float64())])
+#: In memory the unit column is dictionary-encoded (cheap to write); in the file it is a plain
+#: Parquet string column, read back as ``string``.
+SPIKES_SCHEMA = pa.schema([("unit", pa.dictionary(pa.int32(), pa.string())),
+                           ("time_s", pa.float64())])
 EVENTS_SCHEMA = pa.schema([("time_s", pa.float64()), ("condition", pa.string())])
 
 
@@ -51,6 +54,9 @@ class IngestReport:
     rows_written: int = 0
     duplicates_dropped: int = 0
     was_sorted: bool = True
+    n_units: int = 0
+    first_s: float = float("nan")
+    last_s: float = float("nan")
     warnings: list[str] = field(default_factory=list)
 
 
@@ -153,22 +159,29 @@ def normalise_spikes(
         raise SpikevarInputError(
             f"Empty unit id at row(s) {_row_list(mask, text=text_source)}.",
             fix="give every spike a unit id.", where=f"column {columns.unit!r}")
+    in_order = _scan(table, columns=columns, time_unit=time_unit,
+                     sampling_rate_hz=sampling_rate_hz)
+    if in_order is not None:
+        time_units.check_plausible_unit(span_s=in_order.last_s,
+                                        median_isi_s=in_order.median_isi_s, time_unit=time_unit)
+        out = pa.table({"unit": in_order.units, "time_s": in_order.times_s},
+                       schema=SPIKES_SCHEMA)
+        report.rows_written, report.n_units = out.num_rows, in_order.n_units
+        report.first_s, report.last_s = in_order.first_s, in_order.last_s
+        return out, report
     units = pc.cast(unit_col, pa.string()) if unit_col.type != pa.string() else unit_col
     raw = _numeric_times(table.column(columns.time), name=columns.time, text=text_source)
     seconds = time_units.to_seconds(raw, time_unit=time_unit, sampling_rate_hz=sampling_rate_hz)
 
-    units = units.combine_chunks()
-    encoded = pc.dictionary_encode(units)
+    encoded = pc.dictionary_encode(units.combine_chunks())
     labels = encoded.dictionary.to_numpy(zero_copy_only=False).astype(str)
-    codes = encoded.indices.to_numpy(zero_copy_only=False)
+    sorted_labels = labels[unit_sort_order(labels)]
     rank = np.empty(len(labels), dtype=np.int64)
     rank[unit_sort_order(labels)] = np.arange(len(labels))
-    unit_rank = rank[codes]
+    unit_rank = rank[encoded.indices.to_numpy(zero_copy_only=False)]
 
     d_unit, d_time = np.diff(unit_rank), np.diff(seconds)
-    in_order = not (np.any(d_unit < 0) or np.any((d_unit == 0) & (d_time < 0)))
-    order = None
-    if not in_order:
+    if np.any(d_unit < 0) or np.any((d_unit == 0) & (d_time < 0)):
         # tables are usually grouped by unit with times in order, only the units in another
         # order: a stable sort by unit is then enough (and fast on such runs); otherwise sort
         # by unit and time.
@@ -176,16 +189,14 @@ def normalise_spikes(
         unit_rank, seconds = unit_rank[order], seconds[order]
         d_unit, d_time = np.diff(unit_rank), np.diff(seconds)
         if np.any((d_unit == 0) & (d_time < 0)):
-            second = np.lexsort((seconds, unit_rank))
-            order = order[second]
-            unit_rank, seconds = unit_rank[second], seconds[second]
+            order = np.lexsort((seconds, unit_rank))
+            unit_rank, seconds = unit_rank[order], seconds[order]
             d_unit, d_time = np.diff(unit_rank), np.diff(seconds)
         report.was_sorted = False
     dup = (d_unit == 0) & (d_time == 0)
     if dup.any():
         report.duplicates_dropped = int(dup.sum())
         keep = np.flatnonzero(~np.concatenate([[False], dup]))
-        order = keep if order is None else order[keep]
         unit_rank, seconds = unit_rank[keep], seconds[keep]
         d_unit, d_time = np.diff(unit_rank), np.diff(seconds)
 
@@ -194,12 +205,23 @@ def normalise_spikes(
         median_isi_s=time_units.median_isi_from_diffs(d_unit, d_time),
         time_unit=time_unit)
 
-    # the unit column is taken from the Arrow strings (no Python string objects per spike)
-    unit_out = units if order is None else units.take(pa.array(order))
+    unit_out = ordered_scan.unit_dictionary(unit_rank, sorted_labels)
     out = pa.table({"unit": unit_out, "time_s": pa.array(seconds, pa.float64())},
                    schema=SPIKES_SCHEMA)
-    report.rows_written = out.num_rows
+    report.rows_written, report.n_units = out.num_rows, len(labels)
+    report.first_s, report.last_s = float(seconds.min()), float(seconds.max())
     return out, report
+
+
+def _scan(table: pa.Table, *, columns: ColumnNames, time_unit: str,
+          sampling_rate_hz: float | None) -> ordered_scan.OrderedSpikes | None:
+    """The batch-wise pass for tables already in order (``None``: take the full path)."""
+    factor = time_units.seconds_per_tick(time_unit, sampling_rate_hz)
+    samples = time_unit == "samples"
+    return ordered_scan.scan_in_order(
+        table, unit_column=columns.unit, time_column=columns.time,
+        seconds_per_tick=1.0 if samples else factor,
+        divide_by=float(sampling_rate_hz) if samples else None)
 
 
 def normalise_events(
@@ -288,21 +310,14 @@ def _check_readable(path: Path, *, session: str) -> None:
                                  fix="check that the export finished and re-export it.")
 
 
-def _ingest_spikes(path: Path, *, session, columns, time_unit, sampling_rate_hz):
+def _ingest_spikes(path: Path, *, session, columns, time_unit, sampling_rate_hz, hasher):
+    """Read and normalise the spike table; the source's sha256 is computed by ``hasher`` (a
+    one-thread pool) while the rows are checked and written, and returned as a future."""
     _check_readable(path, session=session)
-    # hash the source in a thread while the table is parsed and checked (hashlib releases the
-    # GIL), so the provenance record costs no extra wall time on a multi-core machine
-    with ThreadPoolExecutor(max_workers=1) as pool:
-        digest = pool.submit(sha256_of_file, path)
-        spikes, meta = _ingest_spikes_table(path, session=session, columns=columns,
-                                            time_unit=time_unit,
-                                            sampling_rate_hz=sampling_rate_hz)
-        meta["source_sha256"] = digest.result()
-    return spikes, meta
-
-
-def _ingest_spikes_table(path: Path, *, session, columns, time_unit, sampling_rate_hz):
     raw, is_text, is_nwb = _read_raw(path, columns=columns, kind="spikes")
+    # hashlib releases the GIL: hashing the (now cached) file on the second core while this
+    # thread checks and writes the table makes the provenance record cost no wall time
+    digest = hasher.submit(sha256_of_file, path)
     declared = "s" if is_nwb else time_unit
     spikes, report = normalise_spikes(raw, columns=columns, time_unit=declared,
                                       sampling_rate_hz=sampling_rate_hz, text_source=is_text)
@@ -315,9 +330,9 @@ def _ingest_spikes_table(path: Path, *, session, columns, time_unit, sampling_ra
             "declared_time_unit": declared,
             "sampling_rate_hz": sampling_rate_hz, "rows_read": report.rows_read,
             "rows_written": report.rows_written, "duplicates_dropped": report.duplicates_dropped,
-            "input_was_sorted": report.was_sorted,
-            "n_units": int(pc.count_distinct(spikes.column("unit")).as_py())}
-    return spikes, meta
+            "input_was_sorted": report.was_sorted, "n_units": report.n_units,
+            "first_spike_s": report.first_s, "last_spike_s": report.last_s}
+    return spikes, meta, digest
 
 
 def _ingest_events(path: Path, *, session, columns, time_unit, sampling_rate_hz, span):
@@ -357,17 +372,24 @@ def ingest_session(
     dict
         A summary (row counts, duplicates, warnings) that is also logged.
     """
-    spikes_path = Path(spikes_path)
+    with ThreadPoolExecutor(max_workers=1) as hasher:
+        return _ingest_session(session=session, spikes_path=Path(spikes_path),
+                               events_path=events_path, columns=columns, time_unit=time_unit,
+                               sampling_rate_hz=sampling_rate_hz, spikes_out=spikes_out,
+                               events_out=events_out, hasher=hasher)
+
+
+def _ingest_session(*, session, spikes_path, events_path, columns, time_unit, sampling_rate_hz,
+                    spikes_out, events_out, hasher) -> dict:
     try:
-        spikes, spikes_meta = _ingest_spikes(spikes_path, session=session, columns=columns,
-                                             time_unit=time_unit,
-                                             sampling_rate_hz=sampling_rate_hz)
+        spikes, spikes_meta, digest = _ingest_spikes(
+            spikes_path, session=session, columns=columns, time_unit=time_unit,
+            sampling_rate_hz=sampling_rate_hz, hasher=hasher)
     except SpikevarInputError as err:
         raise err.with_context(session=session, path=str(spikes_path)) from None
     except (pa.ArrowException, ValueError, TypeError) as exc:
         raise _uninterpretable(exc, session=session, path=spikes_path) from None
-    times = spikes.column("time_s").to_numpy()
-    span = (float(times.min()), float(times.max()))
+    span = (spikes_meta["first_spike_s"], spikes_meta["last_spike_s"])
     if events_path is None or str(events_path) == "":
         events, events_meta = empty_events(), {"kind": "events", "session": session,
                                                "source_path": None, "rows_written": 0}
@@ -380,12 +402,14 @@ def ingest_session(
             raise err.with_context(session=session, path=str(events_path)) from None
         except (pa.ArrowException, ValueError, TypeError) as exc:
             raise _uninterpretable(exc, session=session, path=events_path) from None
-    tables = {"spikes": (spikes, spikes_meta), "events": (events, events_meta)}
-    summary: dict = {"session": session}
-    write_parquet_atomic(tables["spikes"][0], spikes_out, metadata=tables["spikes"][1])
-    write_parquet_atomic(tables["events"][0], events_out, metadata=tables["events"][1])
-    summary.update(spikes=tables["spikes"][1], events=tables["events"][1])
+
+    def spikes_metadata() -> dict:  # asked for after the rows are written
+        spikes_meta["source_sha256"] = digest.result()
+        return spikes_meta
+
+    write_parquet_atomic(spikes, spikes_out, metadata=spikes_metadata,
+                         options=SPIKE_TABLE_OPTIONS)
+    write_parquet_atomic(events, events_out, metadata=events_meta)
     log.info("session %s: wrote %d spikes of %d units and %d events.", session,
-             tables["spikes"][1]["rows_written"], tables["spikes"][1]["n_units"],
-             tables["events"][1]["rows_written"])
-    return summary
+             spikes_meta["rows_written"], spikes_meta["n_units"], events_meta["rows_written"])
+    return {"session": session, "spikes": spikes_meta, "events": events_meta}
