@@ -288,8 +288,10 @@ def _read_raw(path: Path, *, columns: ColumnNames, kind: str) -> tuple[pa.Table,
                                        condition_column=columns.event_condition), False, True
     if fmt == ".parquet":
         return readers.read_parquet_table(path), False, False
-    strings = (columns.unit,) if kind == "spikes" else (columns.event_condition,)
-    return readers.read_text_table(path, string_columns=strings), True, False
+    if kind == "spikes":
+        return readers.read_text_table(path, string_columns=(columns.unit,),
+                                       float_columns=(columns.time,)), True, False
+    return readers.read_text_table(path, string_columns=(columns.event_condition,)), True, False
 
 
 def _uninterpretable(exc: Exception, *, session: str, path) -> SpikevarInputError:

@@ -31,11 +31,29 @@ def table_format(path: str | Path) -> str:
         fix=f"convert the table to one of {', '.join(SUPPORTED)}.", path=str(path))
 
 
-def read_text_table(path: str | Path, *, string_columns: tuple[str, ...] = ()) -> pa.Table:
+def read_text_table(path: str | Path, *, string_columns: tuple[str, ...] = (),
+                    float_columns: tuple[str, ...] = ()) -> pa.Table:
     """Read a comma- or tab-separated table (``.gz`` decompressed on the fly).
 
     ``string_columns`` are read as text whatever they contain (unit ids such as ``007``).
+    ``float_columns`` are parsed straight to float64, skipping type inference; if one of them
+    holds something that is not a number, the file is read again with inference so that the
+    caller can point at the offending rows.
     """
+    types = {c: pa.string() for c in string_columns}
+    if float_columns:
+        try:
+            return _read_text_table(path, {**types, **{c: pa.float64() for c in float_columns}})
+        except _NotANumber:
+            pass
+    return _read_text_table(path, types)
+
+
+class _NotANumber(Exception):
+    """A column parsed as float64 holds a value that is not a number."""
+
+
+def _read_text_table(path: str | Path, column_types: dict[str, pa.DataType]) -> pa.Table:
     fmt = table_format(path)
     delimiter = TEXT_SUFFIXES[fmt]
     if fmt.endswith(".gz"):
@@ -49,7 +67,7 @@ def read_text_table(path: str | Path, *, string_columns: tuple[str, ...] = ()) -
             path,
             parse_options=pacsv.ParseOptions(delimiter=delimiter),
             convert_options=pacsv.ConvertOptions(
-                column_types={c: pa.string() for c in string_columns},
+                column_types=column_types,
                 strings_can_be_null=False),
         )
         names = table.column_names
@@ -58,6 +76,8 @@ def read_text_table(path: str | Path, *, string_columns: tuple[str, ...] = ()) -
         return table
     except (pa.ArrowInvalid, OSError, EOFError, gzip.BadGzipFile) as exc:
         message = str(exc).splitlines()[0]
+        if "conversion error to double" in message:
+            raise _NotANumber(message) from None
         if "Empty CSV file" in message:
             raise SpikevarInputError(
                 "The file is empty (no header line).",
