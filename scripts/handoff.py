@@ -22,5 +22,6 @@ with rule_job(sm.log[0], name="handoff"):
                                   json_path=Path(sm.output.dictionary_json))
     handoff.write_datapackage(tables, root=Path(sm.output.datapackage).parent,
                               path=Path(sm.output.datapackage))
-    handoff.write_manifest(sheet=sm.params.sheet, config=dict(sm.params.config),
+    handoff.write_manifest(sheet=sm.params.sheet, normalised=list(sm.input.normalised),
+                           config=dict(sm.params.config),
                            repo=Path(sm.params.repo), path=Path(sm.output.manifest))

@@ -7,6 +7,7 @@ import pyarrow.parquet as pq
 import pytest
 
 from conftest import run_snakemake
+from spikevar.parquet_io import sha256_of_file
 
 pytestmark = pytest.mark.workflow
 
@@ -93,6 +94,9 @@ def test_handoff_package(full_run):
     manifest = json.loads((out / "handoff" / "manifest.json").read_text())
     assert len(manifest["inputs"]) >= len(sheet)
     assert all(len(i["sha256"]) == 64 for i in manifest["inputs"])
+    first = manifest["inputs"][0]  # the hash ingestion recorded is the raw file's own
+    raw = out.parent / first["path"]  # relative to the working folder, or absolute
+    assert first["sha256"] == sha256_of_file(raw)
     assert manifest["config"]["results"] == "out"
     assert "snakemake" in manifest["packages"]
     dictionary = (out / "handoff" / "data_dictionary.md").read_text()

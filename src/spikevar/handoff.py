@@ -14,7 +14,7 @@ import pyarrow.parquet as pq
 
 from spikevar import __version__
 from spikevar.data_dictionary import describe, to_markdown
-from spikevar.parquet_io import sha256_of_file
+from spikevar.parquet_io import read_metadata
 
 
 def _frictionless_type(arrow_type: pa.DataType) -> str:
@@ -75,16 +75,24 @@ def _git_commit(repo: Path) -> str:
         return "unknown"
 
 
-def write_manifest(*, sheet: list[dict], config: dict, repo: Path, path: Path) -> None:
-    """Inputs with sha256, the resolved config, package versions, version/commit, run time."""
+def write_manifest(*, sheet: list[dict], normalised: list[str], config: dict, repo: Path,
+                   path: Path) -> None:
+    """Inputs with sha256, the resolved config, package versions, version/commit, run time.
+
+    The sha256 of each raw file is the one ingestion computed from the bytes it read, taken from
+    the metadata of the session's normalised tables (``normalised``: their paths), so the raw
+    files are not read again and the manifest names exactly what the results came from.
+    """
+    recorded = {(Path(p).parent.name, Path(p).stem): p for p in normalised}
     inputs, seen = [], set()
     for row in sheet:
         for column in ("spikes", "events"):
             value = row.get(column)
             if value and (row["session"], value) not in seen:  # an NWB file may hold both
                 seen.add((row["session"], value))
+                meta = read_metadata(recorded[(row["session"], column)])
                 inputs.append({"session": row["session"], "role": column, "path": value,
-                               "sha256": sha256_of_file(value)})
+                               "sha256": meta["source_sha256"]})
     versions = {}
     for package in ("snakemake", "numpy", "scipy", "pandas", "pyarrow", "matplotlib", "seaborn",
                     "pynwb"):

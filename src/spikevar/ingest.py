@@ -143,9 +143,12 @@ def normalise_spikes(
 
     Notes
     -----
-    Unsorted rows are sorted (reported). Exact duplicates (same unit and same time) are dropped
-    and counted. A header-only table gives an empty result, which is refused: a session needs
-    spikes. Unit ids become strings (``3`` and ``"3"`` are the same unit).
+    A table already in order (grouped by unit, times increasing) is checked batch by batch by
+    :mod:`spikevar.ordered_scan` and passed on without a sort or a copy of the times. Anything
+    else takes the full path below: unsorted rows are sorted (reported), exact duplicates (same
+    unit and same time) are dropped and counted, and bad values are refused with row numbers.
+    A header-only table is refused: a session needs spikes. Unit ids become strings (``3`` and
+    ``"3"`` are the same unit); the unit column comes back dictionary-encoded.
     """
     report = IngestReport(rows_read=table.num_rows)
     _require_columns(table, [columns.unit, columns.time], config_key="unit, time")

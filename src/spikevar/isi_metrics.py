@@ -124,9 +124,10 @@ def unit_isi_table(
     - ``isi_lvr`` = ``3/(n-1) sum (1 - 4 I_i I_{i+1} / (I_i + I_{i+1})^2)
       (1 + 4 R / (I_i + I_{i+1}))`` (Shinomoto et al. 2009, eq. 3).
     - Units with fewer than 3 spikes (fewer than two ISIs) get NaN for every ISI measure and
-      ``isi_reason = "fewer than 3 spikes"``. A zero or negative ``duration_s`` gives NaN rate
-      and ``"zero-length recording"``. Two spikes at the same time give an ISI of 0; a pair of
-      zero ISIs has an undefined ratio and is left out of CV2/LV/LvR.
+      ``isi_reason = "fewer than 3 spikes"``. A zero or negative ``duration_s`` (or one so short
+      that the rate overflows) gives NaN rate and ``"zero-length recording"``. Two spikes at the
+      same time give an ISI of 0; a pair of zero ISIs has an undefined ratio and is left out of
+      CV2/LV/LvR.
     """
     n_units = spikes.n_units
     offsets = spikes.bounds()
@@ -152,15 +153,14 @@ def unit_isi_table(
     for arr in (cv, cv2, lv, lvr, mean_isi):
         arr[few | (n_pairs == 0)] = np.nan
     violation_fraction[n_isi == 0] = np.nan
-    zero = not duration_s > 0
-    with np.errstate(invalid="ignore", divide="ignore"):
-        rate = n_spikes / duration_s if not zero else np.full(n_units, np.nan)
+    with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
+        rate = n_spikes / duration_s if duration_s > 0 else np.full(n_units, np.nan)
+    no_rate = ~np.isfinite(rate)  # no span, or one too short for a finite rate
+    rate[no_rate] = np.nan
     contamination, flag = hill_contamination(
         n_violations=violations, n_spikes=n_spikes, duration_s=duration_s,
         refractory_s=refractory_threshold_s, censored_s=censored_period_s)
-    reason = np.where(few, REASON_FEW_SPIKES, "")
-    if zero:
-        reason = np.where(reason == "", REASON_ZERO_DURATION, reason)
+    reason = np.where(few, REASON_FEW_SPIKES, np.where(no_rate, REASON_ZERO_DURATION, ""))
     return pd.DataFrame({
         "unit": spikes.labels.astype(object),
         "n_spikes": n_spikes.astype(np.int64),

@@ -17,8 +17,7 @@ from spikevar.recovery_fit import (
     ks_uniform,
     rescaled_intervals,
 )
-from spikevar.session_metrics import recording_span
-from spikevar.spike_arrays import SpikeArrays, load_spikes
+from spikevar.spike_arrays import SpikeArrays, load_spikes, recording_span
 
 log = logging.getLogger(__name__)
 

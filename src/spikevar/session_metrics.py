@@ -13,7 +13,7 @@ from spikevar.count_fano import count_fano_table
 from spikevar.fano_timecourse import SlidingWindows, fano_timecourse_table
 from spikevar.isi_metrics import unit_isi_table
 from spikevar.parquet_io import frame_to_arrow, read_parquet_checked, write_parquet_atomic
-from spikevar.spike_arrays import SpikeArrays, load_spikes
+from spikevar.spike_arrays import SpikeArrays, load_spikes, recording_span
 
 log = logging.getLogger(__name__)
 
@@ -36,15 +36,6 @@ class MetricSettings:
         if "counting_windows_s" in metrics:
             metrics["counting_windows_s"] = tuple(float(w) for w in metrics["counting_windows_s"])
         return cls(**metrics, timecourse=SlidingWindows(**(timecourse or {})))
-
-
-def recording_span(spikes: SpikeArrays, duration_s: float | None) -> tuple[float, float]:
-    """``(0, duration_s)`` when the duration is declared, else first to last spike."""
-    if duration_s is not None:
-        return 0.0, float(duration_s)
-    if len(spikes.times) == 0:
-        return 0.0, 0.0
-    return float(spikes.times.min()), float(spikes.times.max())
 
 
 def compute_tables(spikes: SpikeArrays, events: pd.DataFrame, *, settings: MetricSettings,

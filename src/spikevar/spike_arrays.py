@@ -92,3 +92,12 @@ def load_spikes(path: str | Path, *, session: str | None = None) -> SpikeArrays:
             "The normalised spike table is not sorted by unit.",
             fix="delete it and rerun ingestion.", session=session, path=str(path))
     return SpikeArrays(labels=labels, codes=codes, times=np.asarray(times, dtype=np.float64))
+
+
+def recording_span(spikes: SpikeArrays, duration_s: float | None) -> tuple[float, float]:
+    """``(0, duration_s)`` when the duration is declared, else first to last spike."""
+    if duration_s is not None:
+        return 0.0, float(duration_s)
+    if len(spikes.times) == 0:
+        return 0.0, 0.0
+    return float(spikes.times.min()), float(spikes.times.max())

@@ -37,7 +37,7 @@ rule cohort_figures:
             category="Quality control",
         ),
     params:
-        code=code_fingerprint("figures_cohort", "figure_style", "group_stats"),
+        code=code_fingerprint("figures_cohort", "figure_style", "group_stats", "cohort_run"),
     log:
         f"{RESULTS}/logs/cohort/figures.log",
     benchmark:

@@ -7,6 +7,11 @@ rule handoff:
             f"{RESULTS}/cohort/{{table}}.parquet",
             table=[*SESSION_TABLES, "population_fano", "group_summary", "group_differences"],
         ),
+        normalised=expand(
+            f"{RESULTS}/sessions/{{session}}/{{kind}}.parquet",
+            session=SESSIONS,
+            kind=("spikes", "events"),
+        ),
     output:
         failed=f"{RESULTS}/cohort/failed_sessions.parquet",
         dictionary_md=f"{RESULTS}/handoff/data_dictionary.md",
@@ -17,7 +22,7 @@ rule handoff:
         sheet=sheet_records(SHEET),
         config=config,
         repo=str(REPO),
-        code=code_fingerprint("handoff", "data_dictionary"),
+        code=code_fingerprint("handoff", "data_dictionary", "cohort_run"),
     log:
         f"{RESULTS}/logs/cohort/handoff.log",
     benchmark:
