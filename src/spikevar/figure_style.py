@@ -31,12 +31,17 @@ def apply_style() -> None:
     })
 
 
-def save(fig, path) -> None:
-    """Save as PNG and, next to it, SVG; close the figure."""
+def save(fig, path, *, trim: bool = True) -> None:
+    """Save as PNG and, next to it, SVG; close the figure.
+
+    ``trim`` crops to the drawn content; figures laid out by hand pass ``False`` (measuring every
+    text label for the crop costs seconds on figures with many panels).
+    """
     from pathlib import Path
 
     path = Path(path)
     path.parent.mkdir(parents=True, exist_ok=True)
-    fig.savefig(path, bbox_inches="tight")
-    fig.savefig(path.with_suffix(".svg"), bbox_inches="tight")
+    bbox = "tight" if trim else None
+    fig.savefig(path, bbox_inches=bbox)
+    fig.savefig(path.with_suffix(".svg"), bbox_inches=bbox)
     plt.close(fig)
