@@ -54,6 +54,18 @@ def snakemake(work: Path, *args: str) -> float:
     return time.perf_counter() - t0
 
 
+def job_seconds_by_rule(folder: Path) -> None:
+    """Where the run's time goes: seconds of every job (Snakemake's benchmark files) by rule."""
+    seconds: dict[str, list[float]] = {}
+    for path in folder.rglob("*.tsv"):
+        seconds.setdefault(path.stem, []).append(float(pd.read_csv(path, sep="\t")["s"].iloc[0]))
+    total = sum(sum(v) for v in seconds.values())
+    print(f"job seconds by rule (sum {total:.0f} s; the last run's value for rerun jobs):")
+    for rule, values in sorted(seconds.items(), key=lambda kv: -sum(kv[1]))[:8]:
+        print(f"  {rule:<26} {len(values):4d} jobs {sum(values):8.1f} s "
+              f"({100 * sum(values) / total:4.1f}%), {np.mean(values):.2f} s per job")
+
+
 def main():
     parser = argparse.ArgumentParser()
     parser.add_argument("--sessions", type=int, default=200)
@@ -81,6 +93,7 @@ def main():
     rerun = snakemake(work)
     print(f"rerun after one session changed: {rerun:.1f} s = {100 * rerun / full:.1f}% of the "
           "full run")
+    job_seconds_by_rule(work / "out" / "benchmarks")
     rss = []
     for path in (work / "out" / "benchmarks" / "cohort").glob("*.tsv"):
         bench = pd.read_csv(path, sep="\t")

@@ -188,7 +188,9 @@ def normalise_spikes(
         # tables are usually grouped by unit with times in order, only the units in another
         # order: a stable sort by unit is then enough (and fast on such runs); otherwise sort
         # by unit and time.
-        order = np.argsort(unit_rank, kind="stable")
+        # with fewer than 32,768 units a 16-bit key makes NumPy's stable sort a radix sort
+        key = unit_rank.astype(np.int16) if len(labels) <= np.iinfo(np.int16).max else unit_rank
+        order = np.argsort(key, kind="stable")
         unit_rank, seconds = unit_rank[order], seconds[order]
         d_unit, d_time = np.diff(unit_rank), np.diff(seconds)
         if np.any((d_unit == 0) & (d_time < 0)):
