@@ -178,9 +178,10 @@ def normalise_spikes(
 
     encoded = pc.dictionary_encode(units.combine_chunks())
     labels = encoded.dictionary.to_numpy(zero_copy_only=False).astype(str)
-    sorted_labels = labels[unit_sort_order(labels)]
+    label_order = unit_sort_order(labels)
+    sorted_labels = labels[label_order]
     rank = np.empty(len(labels), dtype=np.int64)
-    rank[unit_sort_order(labels)] = np.arange(len(labels))
+    rank[label_order] = np.arange(len(labels))
     unit_rank = rank[encoded.indices.to_numpy(zero_copy_only=False)]
 
     d_unit, d_time = np.diff(unit_rank), np.diff(seconds)
