@@ -18,11 +18,11 @@ $(STAMP): pyproject.toml
 
 ## demo: create the environment, build the synthetic demo cohort, run the whole pipeline
 demo: $(STAMP)
-	$(PY) -m spikevar.demo --out $(DEMO_COHORT)
+	$(PY) -m spikevar.synth.demo --out $(DEMO_COHORT)
 	$(SMK) --config sessions=$(DEMO_COHORT)/sessions.tsv results=$(DEMO_RESULTS)
 	$(SMK) --config sessions=$(DEMO_COHORT)/sessions.tsv results=$(DEMO_RESULTS) \
 		--report $(DEMO_RESULTS)/report.html
-	@$(PY) -m spikevar.where $(DEMO_RESULTS)
+	@$(PY) -m spikevar.pipeline.where $(DEMO_RESULTS)
 
 ## test: lint the code and the workflow, then run the whole test suite
 test: $(STAMP) lint workflow-lint unit
@@ -31,7 +31,7 @@ lint: $(STAMP)
 	$(VENV)/bin/ruff check src tests scripts bench
 
 workflow-lint: $(STAMP)
-	$(PY) -m spikevar.demo --out .lint-cohort --seed 1 >/dev/null
+	$(PY) -m spikevar.synth.demo --out .lint-cohort --seed 1 >/dev/null
 	$(PY) -m snakemake --lint --config sessions=.lint-cohort/sessions.tsv results=.lint-results
 
 unit: $(STAMP)

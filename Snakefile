@@ -48,7 +48,7 @@ rule all:
 
 
 onerror:
-    from spikevar.failures import write_partial_cohort
+    from spikevar.pipeline.failures import write_partial_cohort
 
     try:
         for failure in write_partial_cohort(RESULTS, SESSIONS, cohort_metadata(SHEET)):

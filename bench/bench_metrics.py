@@ -24,9 +24,9 @@ import pandas as pd  # noqa: E402
 sys.path.insert(0, str(Path(__file__).resolve().parent))
 from naive_reference import naive_tables  # noqa: E402
 
-from spikevar.fano_timecourse import SlidingWindows  # noqa: E402
-from spikevar.session_metrics import MetricSettings, compute_tables  # noqa: E402
-from spikevar.spike_arrays import SpikeArrays  # noqa: E402
+from spikevar.base.spike_arrays import SpikeArrays  # noqa: E402
+from spikevar.metrics.fano_timecourse import SlidingWindows  # noqa: E402
+from spikevar.metrics.session import MetricSettings, compute_tables  # noqa: E402
 
 
 def make_session(n_units, duration, n_trials, seed=0):

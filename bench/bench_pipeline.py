@@ -28,10 +28,10 @@ import pyarrow.csv as pacsv  # noqa: E402
 sys.path.insert(0, str(Path(__file__).resolve().parent))
 from naive_reference import naive_recovery_fit, naive_tables  # noqa: E402
 
-from spikevar.ingest import ColumnNames, ingest_session  # noqa: E402
-from spikevar.recovery_table import RecoverySettings, run_session_recovery  # noqa: E402
-from spikevar.session_metrics import MetricSettings, run_session_metrics  # noqa: E402
-from spikevar.simulate import ExpRecoveryISI, renewal_train  # noqa: E402
+from spikevar.inputs.ingest import ColumnNames, ingest_session  # noqa: E402
+from spikevar.metrics.session import MetricSettings, run_session_metrics  # noqa: E402
+from spikevar.recovery.table import RecoverySettings, run_session_recovery  # noqa: E402
+from spikevar.synth.simulate import ExpRecoveryISI, renewal_train  # noqa: E402
 
 
 def build(folder: Path, n_units: int, duration: float, n_trials: int):

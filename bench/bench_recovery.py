@@ -17,8 +17,8 @@ import time  # noqa: E402
 
 import numpy as np  # noqa: E402
 
-import spikevar.recovery_fit as rf  # noqa: E402
-from spikevar import simulate  # noqa: E402
+import spikevar.recovery.fit as rf  # noqa: E402
+from spikevar.synth import simulate  # noqa: E402
 
 calls = {"n": 0}
 _terms = rf._recovery_terms

@@ -10,8 +10,8 @@ os.environ.setdefault("OMP_NUM_THREADS", "1")
 
 sys.path.insert(0, str(Path(snakemake.scriptdir).parent / "src"))  # noqa: F821
 
-from spikevar.ingest import ColumnNames, ingest_session  # noqa: E402
-from spikevar.jobs import rule_job  # noqa: E402
+from spikevar.inputs.ingest import ColumnNames, ingest_session  # noqa: E402
+from spikevar.pipeline.jobs import rule_job  # noqa: E402
 
 sm = snakemake  # noqa: F821
 settings = sm.params.settings

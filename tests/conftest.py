@@ -9,7 +9,7 @@ from pathlib import Path
 
 import pytest
 
-from spikevar.demo import DemoSize, build_demo_cohort
+from spikevar.synth.demo import DemoSize, build_demo_cohort
 
 REPO = Path(__file__).resolve().parents[1]
 

@@ -7,9 +7,9 @@ from hypothesis import strategies as st
 from reference_metrics import count_fano_loop
 from scipy import special
 
-from spikevar import simulate
-from spikevar.count_fano import count_fano_table, poisson_fano_bounds
-from spikevar.spike_arrays import SpikeArrays
+from spikevar.base.spike_arrays import SpikeArrays
+from spikevar.metrics.count_fano import count_fano_table, poisson_fano_bounds
+from spikevar.synth import simulate
 
 
 def many_trains(model, n_units, duration, seed):

@@ -7,9 +7,9 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from reference_metrics import trial_counts_loop
 
-from spikevar import simulate
-from spikevar.fano_timecourse import SlidingWindows, fano_timecourse_table, trial_counts
-from spikevar.spike_arrays import SpikeArrays
+from spikevar.base.spike_arrays import SpikeArrays
+from spikevar.metrics.fano_timecourse import SlidingWindows, fano_timecourse_table, trial_counts
+from spikevar.synth import simulate
 
 
 @settings(max_examples=60, deadline=None)

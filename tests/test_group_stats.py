@@ -4,8 +4,8 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from spikevar.group_stats import group_summary
-from spikevar.hierarchical_bootstrap import hierarchical_resample_indices, replicate_stats
+from spikevar.cohort.bootstrap import hierarchical_resample_indices, replicate_stats
+from spikevar.cohort.group_stats import group_summary
 
 
 def nested(rng, group, n_subj=4, n_sess=2, n_units=15, animal_sd=1.0, unit_sd=0.5):

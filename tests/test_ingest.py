@@ -9,10 +9,10 @@ import pandas as pd
 import pyarrow.parquet as pq
 import pytest
 
-from spikevar.demo import _write_nwb
-from spikevar.errors import SpikevarInputError
-from spikevar.ingest import ColumnNames, ingest_session
-from spikevar.parquet_io import read_metadata, sha256_of_file
+from spikevar.base.errors import SpikevarInputError
+from spikevar.base.parquet_io import read_metadata, sha256_of_file
+from spikevar.inputs.ingest import ColumnNames, ingest_session
+from spikevar.synth.demo import _write_nwb
 
 COLS = ColumnNames()
 SPIKES = pd.DataFrame({"unit": ["b", "a", "a", "b", "a"],

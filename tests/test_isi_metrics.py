@@ -7,9 +7,9 @@ from hypothesis import strategies as st
 from reference_metrics import unit_metrics_loop
 from scipy.special import exp1, gamma
 
-from spikevar import simulate
-from spikevar.isi_metrics import hill_contamination, unit_isi_table
-from spikevar.spike_arrays import SpikeArrays
+from spikevar.base.spike_arrays import SpikeArrays
+from spikevar.metrics.isi import hill_contamination, unit_isi_table
+from spikevar.synth import simulate
 
 
 def table_for(models, duration=3000.0, seed=0, **kw):

@@ -15,10 +15,10 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from spikevar.ingest import ColumnNames, normalise_spikes
-from spikevar.ordered_scan import scan_in_order
-from spikevar.parquet_io import SPIKE_TABLE_OPTIONS, read_metadata, write_parquet_atomic
-from spikevar.spike_arrays import load_spikes
+from spikevar.base.parquet_io import SPIKE_TABLE_OPTIONS, read_metadata, write_parquet_atomic
+from spikevar.base.spike_arrays import load_spikes
+from spikevar.inputs.ingest import ColumnNames, normalise_spikes
+from spikevar.inputs.ordered_scan import scan_in_order
 
 
 def batched(units, times, batch_rows):
@@ -90,7 +90,7 @@ def test_anything_out_of_order_or_invalid_goes_to_the_full_path(units, times, wh
 
 
 def test_interleaved_units_stop_the_scan_early(monkeypatch):
-    import spikevar.ordered_scan as module
+    import spikevar.inputs.ordered_scan as module
     monkeypatch.setattr(module, "MAX_RUNS", 5)
     units = np.tile(["1", "2"], 20)
     table = batched(units, np.arange(40) * 0.01, batch_rows=4)

@@ -4,10 +4,10 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from spikevar import simulate
-from spikevar.fano_timecourse import SlidingWindows, fano_timecourse_table
-from spikevar.population_fano import MeanMatchSettings, population_fano_table
-from spikevar.spike_arrays import SpikeArrays
+from spikevar.base.spike_arrays import SpikeArrays
+from spikevar.metrics.fano_timecourse import SlidingWindows, fano_timecourse_table
+from spikevar.population.fano import MeanMatchSettings, population_fano_table
+from spikevar.synth import simulate
 
 
 def timecourse_from_counts(counts, times, group="g", condition="c"):
@@ -96,7 +96,7 @@ def test_too_few_units_gives_nan_with_reason():
 
 
 def test_mean_match_mask_keeps_the_common_distribution():
-    from spikevar.population_fano import mean_match_mask
+    from spikevar.population.fano import mean_match_mask
 
     rng = np.random.default_rng(7)
     bins = rng.integers(-1, 4, size=(60, 5))

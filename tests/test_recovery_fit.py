@@ -4,8 +4,8 @@ import numpy as np
 import pytest
 from scipy import stats
 
-from spikevar import hazard_models, simulate
-from spikevar.recovery_fit import (
+from spikevar.recovery import hazard_models
+from spikevar.recovery.fit import (
     Intervals,
     exp_recovery_profile_loglik,
     fit_all,
@@ -16,7 +16,8 @@ from spikevar.recovery_fit import (
     ks_uniform,
     rescaled_intervals,
 )
-from spikevar.recovery_table import RecoverySettings, unit_recovery_rows
+from spikevar.recovery.table import RecoverySettings, unit_recovery_rows
+from spikevar.synth import simulate
 
 
 def intervals(model, duration, seed):
@@ -55,7 +56,7 @@ def test_poisson_and_dead_time_closed_form_mles():
 
 def test_gradient_matches_finite_differences():
     iv, _ = intervals(simulate.ExpRecoveryISI(40.0, 0.008, 0.0015), 60, 2)
-    from spikevar.recovery_fit import _neg_loglik_and_grad
+    from spikevar.recovery.fit import _neg_loglik_and_grad
 
     theta = np.array([np.log(0.006), 0.4])
     _, grad = _neg_loglik_and_grad(theta, iv)

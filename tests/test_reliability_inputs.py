@@ -10,13 +10,13 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from spikevar.count_fano import count_fano_table
-from spikevar.errors import SpikevarInputError
-from spikevar.fano_timecourse import SlidingWindows, fano_timecourse_table
-from spikevar.ingest import ColumnNames, ingest_session
-from spikevar.isi_metrics import unit_isi_table
-from spikevar.recovery_table import RecoverySettings, recovery_table
-from spikevar.spike_arrays import load_spikes
+from spikevar.base.errors import SpikevarInputError
+from spikevar.base.spike_arrays import load_spikes
+from spikevar.inputs.ingest import ColumnNames, ingest_session
+from spikevar.metrics.count_fano import count_fano_table
+from spikevar.metrics.fano_timecourse import SlidingWindows, fano_timecourse_table
+from spikevar.metrics.isi import unit_isi_table
+from spikevar.recovery.table import RecoverySettings, recovery_table
 
 CASES = {"tried": 0}
 
@@ -34,7 +34,7 @@ def check_valid_output(out):
     table = pq.read_table(out / "spikes.parquet").to_pandas()
     assert table["time_s"].notna().all() and np.isfinite(table["time_s"]).all()
     assert (table["time_s"] >= 0).all()
-    from spikevar.spike_arrays import unit_sort_order
+    from spikevar.base.unit_order import unit_sort_order
 
     labels = np.array(sorted(set(table["unit"])))
     rank = {label: i for i, label in enumerate(labels[unit_sort_order(labels)])}
@@ -133,7 +133,7 @@ def test_gzip_of_garbage(tmp_path):
 @given(st.lists(st.tuples(st.sampled_from(["a", "b", "c"]),
                           st.floats(min_value=0, max_value=1e5)), max_size=40))
 def test_metric_functions_on_generated_spikes(rows):
-    from spikevar.spike_arrays import SpikeArrays
+    from spikevar.base.spike_arrays import SpikeArrays
 
     CASES["tried"] += 1
     spikes = SpikeArrays.from_arrays(np.array([u for u, _ in rows] or [], dtype=str),

@@ -13,12 +13,12 @@ import pyarrow.parquet as pq
 import pytest
 
 from conftest import REPO, run_snakemake
-from spikevar import simulate
-from spikevar.count_fano import count_fano_table
-from spikevar.isi_metrics import unit_isi_table
-from spikevar.parquet_io import sha256_of_file
-from spikevar.recovery_fit import Intervals, fit_all
-from spikevar.spike_arrays import SpikeArrays
+from spikevar.base.parquet_io import sha256_of_file
+from spikevar.base.spike_arrays import SpikeArrays
+from spikevar.metrics.count_fano import count_fano_table
+from spikevar.metrics.isi import unit_isi_table
+from spikevar.recovery.fit import Intervals, fit_all
+from spikevar.synth import simulate
 
 TABLES = ("units", "count_fano", "fano_timecourse", "recovery", "population_fano",
           "group_summary", "group_differences")

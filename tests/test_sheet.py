@@ -3,8 +3,8 @@
 import pandas as pd
 import pytest
 
-from spikevar.errors import SpikevarInputError
-from spikevar.sheet import load_sheet, metadata_columns
+from spikevar.base.errors import SpikevarInputError
+from spikevar.inputs.sheet import load_sheet, metadata_columns
 
 
 def write_sheet(folder, rows, name="sessions.tsv"):

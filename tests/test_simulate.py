@@ -4,7 +4,8 @@ import numpy as np
 import pytest
 from scipy import stats
 
-from spikevar import hazard_models, simulate
+from spikevar.recovery import hazard_models
+from spikevar.synth import simulate
 
 
 def _isis(model, duration, seed):

@@ -1,8 +1,8 @@
 import numpy as np
 import pytest
 
-from spikevar.errors import SpikevarInputError
-from spikevar.time_units import check_plausible_unit, to_seconds
+from spikevar.base.errors import SpikevarInputError
+from spikevar.inputs.time_units import check_plausible_unit, to_seconds
 
 
 def test_samples_to_seconds_hand_computed_table():

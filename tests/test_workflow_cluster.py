@@ -8,7 +8,7 @@ from pathlib import Path
 import pytest
 
 from conftest import REPO, run_snakemake
-from spikevar.demo import DemoSize, build_demo_cohort
+from spikevar.synth.demo import DemoSize, build_demo_cohort
 
 pytestmark = pytest.mark.workflow
 

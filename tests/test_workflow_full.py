@@ -7,7 +7,7 @@ import pyarrow.parquet as pq
 import pytest
 
 from conftest import run_snakemake
-from spikevar.parquet_io import sha256_of_file
+from spikevar.base.parquet_io import sha256_of_file
 
 pytestmark = pytest.mark.workflow
 

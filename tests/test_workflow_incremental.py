@@ -119,17 +119,32 @@ def test_metric_parameter_reruns_only_rules_that_use_it(finished):
                                  "session_recovery_figure"}
 
 
-def test_code_change_reruns_rules_that_import_it(finished, tmp_path_factory):
+SESSION_RULES = {"ingest_session", "session_metrics", "session_recovery",
+                 "session_recovery_figure"}
+
+
+@pytest.mark.parametrize("module,reruns,keeps", [
+    ("metrics/count_fano.py", {"session_metrics"}, {"ingest_session", "session_recovery"}),
+    # a figure change reruns only the rules that draw
+    ("figures/style.py", {"session_recovery_figure", "cohort_figures"},
+     SESSION_RULES - {"session_recovery_figure"} | {"cohort_table", "population_fano",
+                                                    "group_summary"}),
+    # a bootstrap change reruns the group statistics (and what reads them), nothing upstream
+    ("cohort/bootstrap.py", {"group_summary"},
+     SESSION_RULES | {"cohort_table", "population_fano"}),
+])
+def test_code_change_reruns_rules_that_import_it(finished, tmp_path_factory, module, reruns,
+                                                 keeps):
     work, sheet = finished
     copy = tmp_path_factory.mktemp("repo_copy")
     for part in ("Snakefile", "src", "workflow", "scripts", "config"):
         src = REPO / part
         (shutil.copytree if src.is_dir() else shutil.copy)(src, copy / part)
-    with open(copy / "src" / "spikevar" / "count_fano.py", "a") as handle:
-        handle.write("\n# a change to the count Fano code\n")
-    jobs = planned_jobs(work, sheet, snakefile=copy / "Snakefile")
-    assert "session_metrics" in rules_of(jobs)
-    assert not rules_of(jobs) & {"ingest_session", "session_recovery"}
+    with open(copy / "src" / "spikevar" / module, "a") as handle:
+        handle.write("\n# a code change\n")
+    jobs = rules_of(planned_jobs(work, sheet, snakefile=copy / "Snakefile"))
+    assert reruns <= jobs, f"{module}: expected {sorted(reruns)} to rerun, planned {sorted(jobs)}"
+    assert not jobs & keeps, f"{module}: {sorted(jobs & keeps)} should not rerun"
 
 
 def test_two_runs_give_identical_tables(finished):

@@ -13,7 +13,7 @@ rule cohort_table:
     params:
         sessions=SESSIONS,
         metadata=cohort_metadata(SHEET),
-        code=code_fingerprint("cohort_tables", "parquet_io"),
+        code=code_fingerprint("cohort.tables"),
     log:
         f"{RESULTS}/logs/cohort/{{table}}.log",
     benchmark:

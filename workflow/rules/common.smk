@@ -1,11 +1,11 @@
 # Shared set-up: the checked sessions sheet and small helpers for input functions.
 from snakemake.exceptions import WorkflowError
 
-from spikevar.cohort_tables import SESSION_TABLES
-from spikevar.errors import SpikevarInputError
-from spikevar.provenance import code_fingerprint
-from spikevar.sheet import load_sheet
-from spikevar.workflow_inputs import (
+from spikevar.cohort.tables import SESSION_TABLES
+from spikevar.base.errors import SpikevarInputError
+from spikevar.pipeline.fingerprints import code_fingerprint
+from spikevar.inputs.sheet import load_sheet
+from spikevar.pipeline.rule_inputs import (
     cohort_metadata,
     ingest_inputs,
     ingest_settings,

@@ -37,7 +37,7 @@ rule cohort_figures:
             category="Quality control",
         ),
     params:
-        code=code_fingerprint("figures_cohort", "figure_style", "group_stats", "cohort_run"),
+        code=code_fingerprint("figures.run"),
     log:
         f"{RESULTS}/logs/cohort/figures.log",
     benchmark:

@@ -22,7 +22,7 @@ rule handoff:
         sheet=sheet_records(SHEET),
         config=config,
         repo=str(REPO),
-        code=code_fingerprint("handoff", "data_dictionary", "cohort_run"),
+        code=code_fingerprint("cohort.handoff", "cohort.data_dictionary", "cohort.tables"),
     log:
         f"{RESULTS}/logs/cohort/handoff.log",
     benchmark:

@@ -9,7 +9,7 @@ rule ingest_session:
         events=f"{RESULTS}/sessions/{{session}}/events.parquet",
     params:
         settings=lambda w: ingest_settings(SHEET, w.session, config),
-        code=code_fingerprint("ingest", "readers", "time_units", "parquet_io"),
+        code=code_fingerprint("inputs.ingest"),
     log:
         f"{RESULTS}/logs/sessions/{{session}}/ingest.log",
     benchmark:

@@ -13,9 +13,7 @@ rule session_metrics:
         metrics=config["metrics"],
         timecourse=config["timecourse"],
         duration_s=lambda w: recording_duration(SHEET, w.session),
-        code=code_fingerprint(
-            "session_metrics", "isi_metrics", "count_fano", "fano_timecourse", "spike_arrays"
-        ),
+        code=code_fingerprint("metrics.session"),
     log:
         f"{RESULTS}/logs/sessions/{{session}}/metrics.log",
     benchmark:

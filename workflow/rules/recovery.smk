@@ -9,9 +9,7 @@ rule session_recovery:
     params:
         recovery=config["recovery"],
         duration_s=lambda w: recording_duration(SHEET, w.session),
-        code=code_fingerprint(
-            "recovery_table", "recovery_fit", "slow_rate", "hazard_models", "spike_arrays"
-        ),
+        code=code_fingerprint("recovery.table"),
     log:
         f"{RESULTS}/logs/sessions/{{session}}/recovery.log",
     benchmark:
@@ -41,7 +39,7 @@ rule session_recovery_figure:
     params:
         max_units=config["figures"]["max_units_per_session"],
         duration_s=lambda w: recording_duration(SHEET, w.session),
-        code=code_fingerprint("figures_recovery", "figure_style", "hazard_models"),
+        code=code_fingerprint("figures.recovery"),
     log:
         f"{RESULTS}/logs/sessions/{{session}}/recovery_figure.log",
     benchmark:

@@ -9,7 +9,7 @@ rule population_fano:
     params:
         settings=config["population"],
         seed=config["seed"],
-        code=code_fingerprint("population_fano", "cohort_run"),
+        code=code_fingerprint("population.run"),
     log:
         f"{RESULTS}/logs/cohort/population_fano.log",
     benchmark:
@@ -34,7 +34,7 @@ rule group_summary:
     params:
         n_boot=config["bootstrap"]["n_boot"],
         seed=config["seed"],
-        code=code_fingerprint("group_stats", "hierarchical_bootstrap", "cohort_run"),
+        code=code_fingerprint("cohort.run"),
     log:
         f"{RESULTS}/logs/cohort/group_summary.log",
     benchmark:

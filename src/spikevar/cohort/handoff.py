@@ -1,0 +1,107 @@
+"""The hand-off package: data dictionary, Data Package descriptor and run manifest."""
+
+from __future__ import annotations
+
+import json
+import platform
+import subprocess
+from datetime import UTC, datetime
+from importlib import metadata as importlib_metadata
+from pathlib import Path
+
+import pyarrow as pa
+import pyarrow.parquet as pq
+
+from spikevar import __version__
+from spikevar.base.parquet_io import read_metadata
+from spikevar.cohort.data_dictionary import describe, to_markdown
+
+
+def _frictionless_type(arrow_type: pa.DataType) -> str:
+    if pa.types.is_integer(arrow_type):
+        return "integer"
+    if pa.types.is_floating(arrow_type):
+        return "number"
+    if pa.types.is_boolean(arrow_type):
+        return "boolean"
+    return "string"
+
+
+def write_atomic_text(path: Path, text: str) -> None:
+    tmp = path.with_name(f".{path.name}.tmp")
+    tmp.write_text(text)
+    tmp.replace(path)
+
+
+def write_data_dictionary(tables: dict[str, str], *, markdown: Path, json_path: Path) -> None:
+    """Data dictionary (Markdown + JSON) for the columns of the Parquet ``tables`` given."""
+    columns = {name: pq.read_schema(path).names for name, path in tables.items()}
+    entries = {name: {c: dict(zip(("meaning", "unit", "method"), describe(name, c),
+                                  strict=True)) for c in cols} for name, cols in columns.items()}
+    write_atomic_text(markdown, to_markdown(columns))
+    write_atomic_text(json_path, json.dumps(entries, indent=2))
+
+
+def write_datapackage(tables: dict[str, str], *, root: Path, path: Path) -> None:
+    """A Frictionless Data Package descriptor listing each table with its schema."""
+    resources = []
+    for name, table_path in tables.items():
+        schema = pq.read_schema(table_path)
+        fields = [{"name": f.name, "type": _frictionless_type(f.type),
+                   "description": describe(name, f.name)[0],
+                   **({"unit": describe(name, f.name)[1]} if describe(name, f.name)[1] else {})}
+                  for f in schema]
+        resources.append({"name": name.replace("_", "-"),
+                          "path": str(Path(table_path).resolve().relative_to(root.resolve())),
+                          "format": "parquet", "mediatype": "application/vnd.apache.parquet",
+                          "schema": {"fields": fields}})
+    descriptor = {"name": "spikevar-cohort", "title": "spikevar cohort tables",
+                  "description": "Spike-train variability and refractory-recovery estimates per "
+                  "unit, session and group. Statistical estimates: validity depends on spike "
+                  "sorting quality and recording stationarity.",
+                  "resources": resources}
+    write_atomic_text(path, json.dumps(descriptor, indent=2))
+
+
+def _git_commit(repo: Path) -> str:
+    try:
+        out = subprocess.run(["git", "-C", str(repo), "rev-parse", "HEAD"], capture_output=True,
+                             text=True, timeout=10, check=False)
+        dirty = subprocess.run(["git", "-C", str(repo), "status", "--porcelain"],
+                               capture_output=True, text=True, timeout=10, check=False)
+        commit = out.stdout.strip() or "unknown"
+        return commit + ("+uncommitted" if dirty.stdout.strip() else "")
+    except (OSError, subprocess.SubprocessError):
+        return "unknown"
+
+
+def write_manifest(*, sheet: list[dict], normalised: list[str], config: dict, repo: Path,
+                   path: Path) -> None:
+    """Inputs with sha256, the resolved config, package versions, version/commit, run time.
+
+    The sha256 of each raw file is the one ingestion computed from the bytes it read, taken from
+    the metadata of the session's normalised tables (``normalised``: their paths), so the raw
+    files are not read again and the manifest names exactly what the results came from.
+    """
+    recorded = {(Path(p).parent.name, Path(p).stem): p for p in normalised}
+    inputs, seen = [], set()
+    for row in sheet:
+        for column in ("spikes", "events"):
+            value = row.get(column)
+            if value and (row["session"], value) not in seen:  # an NWB file may hold both
+                seen.add((row["session"], value))
+                meta = read_metadata(recorded[(row["session"], column)])
+                inputs.append({"session": row["session"], "role": column, "path": value,
+                               "sha256": meta["source_sha256"]})
+    versions = {}
+    for package in ("snakemake", "numpy", "scipy", "pandas", "pyarrow", "matplotlib", "seaborn",
+                    "pynwb"):
+        try:
+            versions[package] = importlib_metadata.version(package)
+        except importlib_metadata.PackageNotFoundError:
+            versions[package] = "not installed"
+    manifest = {"spikevar_version": __version__, "spikevar_commit": _git_commit(repo),
+                "run_finished_utc": datetime.now(UTC).isoformat(timespec="seconds"),
+                "python": platform.python_version(), "packages": versions, "config": config,
+                "inputs": inputs}
+    write_atomic_text(path, json.dumps(manifest, indent=2, default=str))

@@ -1,0 +1,111 @@
+"""Assemble per-session tables into cohort tables, streaming one session at a time."""
+
+from __future__ import annotations
+
+import os
+from pathlib import Path
+
+import pyarrow as pa
+import pyarrow.csv as pacsv
+import pyarrow.parquet as pq
+
+from spikevar.base.parquet_io import (
+    METADATA_KEY,
+    publish,
+    read_parquet_checked,
+    temporary_sibling,
+    write_parquet_atomic,
+)
+
+#: per-session tables that are concatenated into cohort tables
+SESSION_TABLES = ("units", "count_fano", "fano_timecourse", "recovery")
+
+
+def _with_metadata(table: pa.Table, meta: dict[str, str], meta_columns: list[str]) -> pa.Table:
+    n = table.num_rows
+    if "session" in table.column_names:
+        table = table.drop_columns(["session"])
+    columns = [pa.array([str(meta.get(c, ""))] * n, pa.string()) for c in meta_columns]
+    return pa.Table.from_arrays(columns + table.columns,
+                                names=meta_columns + table.column_names)
+
+
+def _unify(tables: list[pa.Table]) -> pa.Schema:
+    """A schema all tables cast to: the first typed (non-null) field of each column wins."""
+    fields: dict[str, pa.Field] = {}
+    for table in tables:
+        for field in table.schema:
+            if field.name not in fields or pa.types.is_null(fields[field.name].type):
+                fields[field.name] = field
+    names = []
+    for table in tables:
+        names.extend(n for n in table.column_names if n not in names)
+    return pa.schema([fields[n].with_type(pa.string()) if pa.types.is_null(fields[n].type)
+                      else fields[n] for n in names])
+
+
+def _conform(table: pa.Table, schema: pa.Schema) -> pa.Table:
+    arrays = []
+    for field in schema:
+        if field.name in table.column_names:
+            arrays.append(table.column(field.name).cast(field.type))
+        else:
+            arrays.append(pa.nulls(table.num_rows, field.type))
+    return pa.Table.from_arrays(arrays, schema=schema.remove_metadata())
+
+
+def assemble_cohort_table(inputs: dict[str, str], metadata: dict[str, dict[str, str]], *,
+                          meta_columns: list[str], output: str | os.PathLike,
+                          csv_output: str | os.PathLike | None = None) -> int:
+    """Concatenate per-session Parquet tables with the sheet's metadata columns in front.
+
+    Only each table's schema is read up front; the rows are then streamed session by session
+    into a Parquet writer (and a CSV writer), so memory holds one session's table at a time.
+    Both files are written to temporary names and renamed when complete.
+
+    Returns
+    -------
+    int
+        Rows written.
+    """
+    output = Path(output)
+    output.parent.mkdir(parents=True, exist_ok=True)
+    sessions = list(inputs)
+    schemas = [pq.read_schema(inputs[s]) for s in sessions]
+    probe = [_with_metadata(sch.empty_table(), metadata[s], meta_columns)
+             for s, sch in zip(sessions, schemas, strict=True)]
+    schema = _unify(probe) if probe else pa.schema([(c, pa.string()) for c in meta_columns])
+    schema = schema.with_metadata({METADATA_KEY: b'{"kind": "cohort table"}'})
+    tmp = temporary_sibling(output)
+    tmp_csv = temporary_sibling(Path(csv_output)) if csv_output else None
+    rows = 0
+    try:
+        with pq.ParquetWriter(tmp, schema, compression="zstd") as writer:
+            csv_writer = pacsv.CSVWriter(tmp_csv, schema.remove_metadata()) if tmp_csv else None
+            for session in sessions:
+                table = read_parquet_checked(inputs[session], session=session)
+                table = _conform(_with_metadata(table, metadata[session], meta_columns), schema)
+                writer.write_table(table.replace_schema_metadata(schema.metadata))
+                if csv_writer is not None:
+                    csv_writer.write_table(table)
+                rows += table.num_rows
+            if csv_writer is not None:
+                csv_writer.close()
+        publish(tmp, output)
+        if tmp_csv is not None:
+            publish(tmp_csv, Path(csv_output))
+    finally:
+        tmp.unlink(missing_ok=True)
+        if tmp_csv is not None:
+            tmp_csv.unlink(missing_ok=True)
+    return rows
+
+
+FAILED_SCHEMA = pa.schema([("session", pa.string()), ("rule", pa.string()),
+                           ("reason", pa.string())])
+
+
+def write_failed_sessions(rows: list[dict], output) -> None:
+    """The ``failed_sessions`` table (empty, with its schema, when nothing failed)."""
+    table = pa.Table.from_pylist(rows, schema=FAILED_SCHEMA)
+    write_parquet_atomic(table, output, metadata={"kind": "failed sessions"})

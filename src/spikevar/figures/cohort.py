@@ -1,0 +1,192 @@
+"""The cohort figure set (PNG + SVG), drawn from the cohort tables."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+from spikevar.cohort.group_stats import METRICS
+from spikevar.figures import style as figure_style
+
+
+def _group_colours(groups):
+    return {g: figure_style.SERIES[i % len(figure_style.SERIES)] for i, g in enumerate(groups)}
+
+
+def _finish(fig, ax, path, *, xlabel: str, ylabel: str, title: str) -> None:
+    """Label a single-panel figure, add its legend and save it (PNG + SVG)."""
+    ax.set_xlabel(xlabel)
+    ax.set_ylabel(ylabel)
+    ax.set_title(title, loc="left")
+    ax.legend(fontsize=7)
+    fig.tight_layout()
+    figure_style.save(fig, path)
+
+
+def population_fano_figure(pop: pd.DataFrame, path) -> None:
+    """Mean-matched and regression Fano factor over event-aligned time, per group/condition."""
+    import matplotlib.pyplot as plt
+
+    groups = sorted(pop["group"].unique()) if len(pop) else ["(none)"]
+    fig, axes = plt.subplots(2, len(groups), figsize=(4.2 * len(groups), 5.6), squeeze=False,
+                             sharex=True, gridspec_kw={"height_ratios": [2, 1]})
+    conditions = sorted(pop["condition"].unique()) if len(pop) else []
+    colours = _group_colours(conditions)
+    for j, group in enumerate(groups):
+        top, bottom = axes[0, j], axes[1, j]
+        for k, cond in enumerate(conditions):
+            part = pop[(pop["group"] == group) & (pop["condition"] == cond)].sort_values("time_s")
+            if part.empty:
+                continue
+            c = colours[cond]
+            top.fill_between(part["time_s"], part["ci_lo"], part["ci_hi"], color=c, alpha=0.18,
+                             linewidth=0)
+            top.plot(part["time_s"], part["fano_mean_matched"], color=c, lw=1.8,
+                     marker=figure_style.MARKERS[k], markevery=6, ms=4,
+                     label=f"{cond}: mean-matched")
+            top.plot(part["time_s"], part["fano_regression"], color=c, lw=1.0, ls="--",
+                     label=f"{cond}: all units")
+            bottom.plot(part["time_s"], part["mean_count"] / part["window_s"], color=c, lw=1.4,
+                        marker=figure_style.MARKERS[k], markevery=6, ms=4, label=cond)
+        for ax in (top, bottom):
+            ax.axvline(0.0, color=figure_style.INK, lw=0.9, ls=":")
+        top.axhline(1.0, color="#9aa5b1", lw=0.8)
+        top.set_title(f"group {group}", loc="left")
+        top.set_ylabel("Fano factor (count variance / mean)")
+        bottom.set_ylabel("mean rate (Hz)")
+        bottom.set_xlabel("time from event (s; window centre)")
+        top.legend(fontsize=7)
+    fig.suptitle("Population Fano factor around the event (bands: 95% interval over units; "
+                 "dotted line: event)", x=0.01, ha="left")
+    fig.tight_layout()
+    figure_style.save(fig, path)
+
+
+def unit_metric_figure(frame: pd.DataFrame, summary: pd.DataFrame, path) -> None:
+    """Distribution of each unit metric by group with the hierarchical-bootstrap interval."""
+    import matplotlib.pyplot as plt
+    import seaborn as sns
+
+    groups = sorted(frame["group"].astype(str).unique())
+    colours = _group_colours(groups)
+    metrics = list(METRICS)
+    fig, axes = plt.subplots(2, 4, figsize=(13, 6.2))
+    for ax, metric in zip(axes.ravel(), metrics, strict=True):
+        data = frame[["group", metric]].dropna()
+        if not data.empty:
+            sns.stripplot(data=data, x="group", y=metric, order=groups, hue="group",
+                          palette=colours, size=3, alpha=0.5, jitter=0.25, ax=ax, legend=False)
+        rows = summary[summary["metric"] == metric].set_index("group")
+        for i, g in enumerate(groups):
+            if g in rows.index and np.isfinite(rows.loc[g, "mean"]):
+                r = rows.loc[g]
+                ax.errorbar(i + 0.32, r["mean"], yerr=[[r["mean"] - r["mean_ci_lo"]],
+                                                        [r["mean_ci_hi"] - r["mean"]]],
+                            fmt=figure_style.MARKERS[i], color=figure_style.INK, ms=5,
+                            capsize=3, lw=1.2)
+        if metric in ("rate_hz", "recovery_tau_s", "dead_time_s") and (data[metric] > 0).all() \
+                and not data.empty:
+            ax.set_yscale("log")
+        ax.set_title(METRICS[metric], loc="left")
+        ax.set_xlabel("group")
+        ax.set_ylabel(METRICS[metric])
+    fig.suptitle("Unit metrics by group (dots: units; black: mean with 95% hierarchical "
+                 "bootstrap interval over subject > session > unit)", x=0.01, ha="left")
+    fig.tight_layout()
+    figure_style.save(fig, path)
+
+
+def fano_window_figure(count_fano: pd.DataFrame, units: pd.DataFrame, path) -> None:
+    """Count Fano factor against counting window, with the Poisson line and the CV^2 level."""
+    import matplotlib.pyplot as plt
+
+    fig, ax = plt.subplots(figsize=(6.2, 4.2))
+    groups = sorted(count_fano["group"].astype(str).unique()) if len(count_fano) else []
+    colours = _group_colours(groups)
+    for i, g in enumerate(groups):
+        part = count_fano[count_fano["group"].astype(str) == g]
+        stats = part.groupby("window_s")["fano"].quantile([0.25, 0.5, 0.75]).unstack()
+        c = colours[g]
+        ax.fill_between(stats.index, stats[0.25], stats[0.75], color=c, alpha=0.18, lw=0)
+        ax.plot(stats.index, stats[0.5], color=c, marker=figure_style.MARKERS[i], lw=1.6,
+                label=f"{g}: median, quartiles")
+        cv2 = (units.loc[units["group"].astype(str) == g, "isi_cv"] ** 2).median()
+        ax.axhline(cv2, color=c, ls=(0, (4, 2, 1, 2)), lw=1.0, label=f"{g}: median ISI CV²")
+    ax.axhline(1.0, color=figure_style.INK, lw=1.0, ls=":", label="Poisson (FF = 1)")
+    ax.set_xscale("log")
+    _finish(fig, ax, path, xlabel="counting window (s, log scale)", ylabel="count Fano factor",
+            title="Count Fano factor by counting window")
+
+
+def tau_cv_figure(frame: pd.DataFrame, path) -> None:
+    """Recovery time constant against ISI CV, one colour and marker per group."""
+    import matplotlib.pyplot as plt
+
+    fig, ax = plt.subplots(figsize=(5.6, 4.2))
+    groups = sorted(frame["group"].astype(str).unique())
+    colours = _group_colours(groups)
+    for i, g in enumerate(groups):
+        part = frame[(frame["group"].astype(str) == g)].dropna(subset=["recovery_tau_s",
+                                                                       "isi_cv"])
+        ax.scatter(part["isi_cv"], part["recovery_tau_s"] * 1e3, color=colours[g],
+                   marker=figure_style.MARKERS[i], s=22, alpha=0.75, edgecolor="white",
+                   linewidth=0.4, label=f"{g} (n = {len(part)})")
+    ax.set_yscale("log")
+    _finish(fig, ax, path, xlabel="ISI coefficient of variation",
+            ylabel="recovery time constant τ (ms, log scale)",
+            title="Refractory recovery against firing irregularity")
+
+
+def quality_figure(units: pd.DataFrame, recovery: pd.DataFrame, path) -> None:
+    """Refractory violations, contamination, and units without metrics or fits (and why)."""
+    import matplotlib.pyplot as plt
+
+    fig, axes = plt.subplots(1, 3, figsize=(13, 3.8))
+    ax = axes[0]
+    ax.hist(units["refractory_violation_fraction"].dropna() * 100, bins=30, color="#2b4f81",
+            edgecolor="white")
+    ax.set_xlabel("ISIs below the refractory threshold (%)")
+    ax.set_ylabel("units")
+    ax.set_title("Refractory-period violations", loc="left")
+    ax = axes[1]
+    ax.hist(units["contamination_hill"].dropna() * 100, bins=30, color="#d98c1f",
+            edgecolor="white")
+    n_flag = int((units["contamination_flag"].fillna("") != "").sum())
+    ax.set_xlabel("estimated contamination (%, Hill et al. 2011)")
+    ax.set_ylabel("units")
+    ax.set_title(f"Contamination ({n_flag} units without a real solution)", loc="left")
+    ax = axes[2]
+    reasons = pd.concat([
+        units.loc[units["isi_reason"].fillna("") != "", "isi_reason"].map(
+            lambda r: f"no ISI metrics: {r}"),
+        recovery.loc[(recovery["model"] == "exp_recovery") & ~recovery["converged"].astype(bool),
+                     "fit_note"].map(lambda r: f"no recovery fit: {str(r)[:40]}"),
+    ])
+    counts = reasons.value_counts()
+    if counts.empty:
+        ax.text(0.5, 0.5, f"all {len(units)} units have metrics and fits", ha="center",
+                transform=ax.transAxes)
+        ax.set_yticks([])
+    else:
+        ax.barh(counts.index, counts.to_numpy(), color="#6b7a8f")
+        ax.invert_yaxis()
+    ax.set_xlabel("units")
+    ax.set_title("Units left out, by reason", loc="left")
+    fig.suptitle(f"Quality overview: {len(units)} units", x=0.01, ha="left")
+    fig.tight_layout()
+    figure_style.save(fig, path)
+
+
+def draw_cohort_figures(*, tables: dict[str, pd.DataFrame], frame: pd.DataFrame,
+                        summary: pd.DataFrame, outputs: dict[str, str]) -> None:
+    """Draw every cohort figure into ``outputs`` (PNG paths; SVG written alongside)."""
+    figure_style.apply_style()
+    for path in outputs.values():
+        Path(path).parent.mkdir(parents=True, exist_ok=True)
+    population_fano_figure(tables["population_fano"], outputs["population_fano"])
+    unit_metric_figure(frame, summary, outputs["unit_metrics"])
+    fano_window_figure(tables["count_fano"], tables["units"], outputs["fano_by_window"])
+    tau_cv_figure(frame, outputs["tau_vs_cv"])
+    quality_figure(tables["units"], tables["recovery"], outputs["quality"])

@@ -1,0 +1,20 @@
+"""Entry point of the cohort_figures rule: read the cohort tables, draw the figure set."""
+
+from __future__ import annotations
+
+import logging
+from pathlib import Path
+
+from spikevar.base.parquet_io import read_frame
+from spikevar.cohort.group_stats import unit_metric_frame
+from spikevar.figures.cohort import draw_cohort_figures
+
+log = logging.getLogger(__name__)
+
+
+def run_cohort_figures(*, inputs: dict[str, str], outputs: dict[str, str]) -> None:
+    tables = {name: read_frame(path) for name, path in inputs.items()}
+    frame = unit_metric_frame(tables["units"], tables["count_fano"], tables["recovery"])
+    draw_cohort_figures(tables=tables, frame=frame, summary=tables["group_summary"],
+                        outputs=outputs)
+    log.info("cohort figures written: %s", ", ".join(Path(p).name for p in outputs.values()))
