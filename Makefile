@@ -8,7 +8,7 @@ DEMO_COHORT := demo/cohort
 DEMO_RESULTS := results/demo
 SMK := $(PY) -m snakemake --cores $(CORES)
 
-.PHONY: demo test lint unit workflow-lint bench clean
+.PHONY: demo test quick lint unit workflow-lint bench clean
 
 $(STAMP): pyproject.toml
 	$(PYTHON) -m venv $(VENV)
@@ -26,6 +26,10 @@ demo: $(STAMP)
 
 ## test: lint the code and the workflow, then run the whole test suite
 test: $(STAMP) lint workflow-lint unit
+
+## quick: lint and every test that does not run Snakemake (about a minute)
+quick: $(STAMP) lint
+	$(PY) -m pytest -n $(CORES) -q -m "not workflow"
 
 lint: $(STAMP)
 	$(VENV)/bin/ruff check src tests scripts bench

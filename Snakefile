@@ -3,6 +3,7 @@ import os
 import sys
 from pathlib import Path
 
+from snakemake.exceptions import WorkflowError
 from snakemake.utils import min_version, validate
 
 min_version("9.0")
@@ -17,6 +18,13 @@ os.environ.setdefault("OMP_NUM_THREADS", "1")
 configfile: str(REPO / "config" / "config.yaml")
 
 
+from spikevar.base.errors import SpikevarInputError
+from spikevar.pipeline.settings import check_config
+
+try:  # unknown keys first, with the closest valid key named; then types and ranges
+    check_config(config)
+except SpikevarInputError as err:
+    raise WorkflowError(f"spikevar: {err}") from None
 validate(config, str(REPO / "workflow" / "schemas" / "config.schema.yaml"))
 
 
@@ -36,25 +44,18 @@ localrules:
 
 rule all:
     input:
-        expand(
-            f"{RESULTS}/sessions/{{session}}/{{table}}.parquet",
-            session=SESSIONS,
-            table=SESSION_TABLES,
-        ),
-        expand(f"{RESULTS}/figures/sessions/{{session}}_recovery.png", session=SESSIONS),
-        expand(f"{RESULTS}/figures/{{figure}}.png", figure=COHORT_FIGURES),
-        f"{RESULTS}/datapackage.json",
+        [LAYOUT.session_table(s, t) for s in SESSIONS for t in SESSION_TABLES],
+        [LAYOUT.recovery_figure(s, fmt) for s in SESSIONS for fmt in FIGURE_FORMATS],
+        [LAYOUT.cohort_figure(f, fmt) for f in COHORT_FIGURES for fmt in FIGURE_FORMATS],
+        LAYOUT.datapackage(),
     default_target: True
 
 
 onerror:
-    from spikevar.pipeline.failures import write_partial_cohort
+    from spikevar.pipeline.failures import failure_line, write_partial_cohort
 
     try:
-        for failure in write_partial_cohort(RESULTS, SESSIONS, cohort_metadata(SHEET)):
-            print(
-                f"spikevar: session {failure['session']} failed in {failure['rule']}: "
-                f"{failure['reason']}"
-            )
+        for failure in write_partial_cohort(LAYOUT, SESSIONS, cohort_metadata(SHEET)):
+            print(failure_line(failure))
     except Exception as err:  # reporting must never hide the original error
         print(f"spikevar: could not assemble the partial cohort: {err}")

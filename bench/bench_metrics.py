@@ -25,8 +25,8 @@ sys.path.insert(0, str(Path(__file__).resolve().parent))
 from naive_reference import naive_tables  # noqa: E402
 
 from spikevar.base.spike_arrays import SpikeArrays  # noqa: E402
-from spikevar.metrics.fano_timecourse import SlidingWindows  # noqa: E402
-from spikevar.metrics.session import MetricSettings, compute_tables  # noqa: E402
+from spikevar.metrics.session import compute_tables  # noqa: E402
+from spikevar.metrics.settings import MetricSettings, SlidingWindows  # noqa: E402
 
 
 def make_session(n_units, duration, n_trials, seed=0):
@@ -54,14 +54,16 @@ def main():
     duration = args.hours * 3600
     spikes, events = make_session(args.units, duration, args.trials)
     n = len(spikes.times)
-    settings = MetricSettings(timecourse=SlidingWindows(-0.5, 1.0, 0.1, 0.025))
+    settings = MetricSettings()
+    windows = SlidingWindows(-0.5, 1.0, 0.1, 0.025)
     print(f"session: {args.units} units, {duration:.0f} s, {n:,} spikes, {args.trials} trials, "
-          f"{len(settings.timecourse.left_edges())} sliding windows, "
+          f"{len(windows.left_edges())} sliding windows, "
           f"{len(settings.counting_windows_s)} counting windows")
     array_bytes = spikes.times.nbytes + spikes.codes.nbytes
     tracemalloc.start()
     t0 = time.perf_counter()
-    tables = compute_tables(spikes, events, settings=settings, duration_s=duration)
+    tables = compute_tables(spikes, events, settings=settings, windows=windows,
+                            duration_s=duration)
     elapsed = time.perf_counter() - t0
     _, peak = tracemalloc.get_traced_memory()
     tracemalloc.stop()

@@ -28,9 +28,12 @@ import pyarrow.csv as pacsv  # noqa: E402
 sys.path.insert(0, str(Path(__file__).resolve().parent))
 from naive_reference import naive_recovery_fit, naive_tables  # noqa: E402
 
-from spikevar.inputs.ingest import ColumnNames, ingest_session  # noqa: E402
-from spikevar.metrics.session import MetricSettings, run_session_metrics  # noqa: E402
-from spikevar.recovery.table import RecoverySettings, run_session_recovery  # noqa: E402
+from spikevar.inputs.ingest import ingest_session  # noqa: E402
+from spikevar.inputs.settings import ColumnNames  # noqa: E402
+from spikevar.metrics.session import run_session_metrics  # noqa: E402
+from spikevar.metrics.settings import MetricSettings, SlidingWindows  # noqa: E402
+from spikevar.recovery.settings import RecoverySettings  # noqa: E402
+from spikevar.recovery.table import run_session_recovery  # noqa: E402
 from spikevar.synth.simulate import ExpRecoveryISI, renewal_train  # noqa: E402
 
 
@@ -131,7 +134,7 @@ def main():
     timed("spikevar metrics", lambda: run_session_metrics(
         session="big", spikes_path=out / "spikes.parquet", events_path=out / "events.parquet",
         outputs={k: out / f"{k}.parquet" for k in ("units", "count_fano", "fano_timecourse")},
-        settings=MetricSettings()), n, r)
+        settings=MetricSettings(), windows=SlidingWindows()), n, r)
     timed("spikevar recovery fits", lambda: run_session_recovery(
         session="big", spikes_path=out / "spikes.parquet", output=out / "recovery.parquet",
         settings=RecoverySettings()), n, r)
@@ -149,7 +152,7 @@ def main():
     t0 = time.perf_counter()
     naive_tables(subset, events.rename(columns={"time": "time_s"}),
                  windows_s=MetricSettings().counting_windows_s,
-                 tc_left=MetricSettings().timecourse.left_edges(), tc_width=0.1, start=0.0,
+                 tc_left=SlidingWindows().left_edges(), tc_width=0.1, start=0.0,
                  stop=duration)
     for _, frame in subset.groupby("unit"):
         t = frame["time_s"].to_numpy()

@@ -1,12 +1,7 @@
 """Rule handoff: data dictionary, datapackage.json, manifest and the failed_sessions table."""
 
-import os
 import sys
 from pathlib import Path
-
-# one job = one core: keep BLAS single-threaded (set before numpy is imported)
-os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")
-os.environ.setdefault("OMP_NUM_THREADS", "1")
 
 sys.path.insert(0, str(Path(snakemake.scriptdir).parent / "src"))  # noqa: F821
 
@@ -14,8 +9,7 @@ from spikevar.cohort import handoff  # noqa: E402
 from spikevar.cohort.tables import write_failed_sessions  # noqa: E402
 from spikevar.pipeline.jobs import rule_job  # noqa: E402
 
-sm = snakemake  # noqa: F821
-with rule_job(sm.log[0], name="handoff"):
+with rule_job(snakemake, step="handoff") as sm:  # noqa: F821
     write_failed_sessions([], sm.output.failed)
     tables = {Path(p).stem: p for p in [*sm.input.tables, sm.output.failed]}
     handoff.write_data_dictionary(tables, markdown=Path(sm.output.dictionary_md),

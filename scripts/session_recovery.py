@@ -1,24 +1,20 @@
 """Rule session_recovery: fit poisson, dead_time and exp_recovery to every unit of a session."""
 
-import os
 import sys
 from pathlib import Path
 
-# one job = one core: keep BLAS single-threaded (set before numpy is imported)
-os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")
-os.environ.setdefault("OMP_NUM_THREADS", "1")
-
 sys.path.insert(0, str(Path(snakemake.scriptdir).parent / "src"))  # noqa: F821
 
+from spikevar.base.settings import settings_from  # noqa: E402
 from spikevar.pipeline.jobs import rule_job  # noqa: E402
-from spikevar.recovery.table import RecoverySettings, run_session_recovery  # noqa: E402
+from spikevar.recovery.settings import RecoverySettings  # noqa: E402
+from spikevar.recovery.table import run_session_recovery  # noqa: E402
 
-sm = snakemake  # noqa: F821
-with rule_job(sm.log[0], name="recovery"):
+with rule_job(snakemake, step="recovery") as sm:  # noqa: F821
     run_session_recovery(
         session=sm.wildcards.session,
         spikes_path=sm.input.spikes,
         output=sm.output[0],
-        settings=RecoverySettings(**sm.params.recovery),
+        settings=settings_from(RecoverySettings, sm.params.recovery, section="recovery"),
         duration_s=sm.params.duration_s,
     )

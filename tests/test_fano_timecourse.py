@@ -8,7 +8,8 @@ from hypothesis import strategies as st
 from reference_metrics import trial_counts_loop
 
 from spikevar.base.spike_arrays import SpikeArrays
-from spikevar.metrics.fano_timecourse import SlidingWindows, fano_timecourse_table, trial_counts
+from spikevar.metrics.fano_timecourse import fano_timecourse_table, trial_counts
+from spikevar.metrics.settings import SlidingWindows
 from spikevar.synth import simulate
 
 

@@ -11,8 +11,9 @@ import pytest
 
 from spikevar.base.errors import SpikevarInputError
 from spikevar.base.parquet_io import read_metadata, sha256_of_file
-from spikevar.inputs.ingest import ColumnNames, ingest_session
-from spikevar.synth.demo import _write_nwb
+from spikevar.inputs.ingest import ingest_session
+from spikevar.inputs.settings import ColumnNames
+from spikevar.synth.demo import write_nwb
 
 COLS = ColumnNames()
 SPIKES = pd.DataFrame({"unit": ["b", "a", "a", "b", "a"],
@@ -63,7 +64,7 @@ def test_each_text_and_parquet_format(tmp_path, fmt):
 
 def test_nwb_units_and_trials(tmp_path):
     path = tmp_path / "s.nwb"
-    _write_nwb(path, SPIKES, EVENTS, "s1", "fen")
+    write_nwb(path, SPIKES, EVENTS, "s1", "fen")
     spikes, events, _ = run(tmp_path, path, path, time_unit="ms")  # NWB is always seconds
     assert len(spikes) == 5
     assert spikes.groupby("unit").size().to_dict() == {"a": 3, "b": 2}
@@ -248,3 +249,15 @@ def test_integer_unit_ids_sort_by_value(tmp_path):
         path, index=False)
     spikes, _, _ = run(tmp_path, path)
     assert spikes["unit"].tolist() == ["1", "2", "2", "10", "10"]
+
+
+def test_unit_column_without_a_text_form_names_the_column(tmp_path):
+    import pyarrow as pa
+
+    path = tmp_path / "lists.parquet"
+    pq.write_table(pa.table({"unit": pa.array([[1], [2]], pa.list_(pa.int64())),
+                             "time": [0.1, 0.2]}), path)
+    with pytest.raises(SpikevarInputError) as err:
+        run(tmp_path, path)
+    message = str(err.value)
+    assert "column 'unit'" in message and "lists.parquet" in message and "s1" in message

@@ -9,6 +9,7 @@ from scipy.special import exp1, gamma
 
 from spikevar.base.spike_arrays import SpikeArrays
 from spikevar.metrics.isi import hill_contamination, unit_isi_table
+from spikevar.metrics.settings import MetricSettings
 from spikevar.synth import simulate
 
 
@@ -20,7 +21,8 @@ def table_for(models, duration=3000.0, seed=0, **kw):
         units.append(np.full(len(t), f"u{i}"))
         times.append(t)
     spikes = SpikeArrays.from_arrays(np.concatenate(units), np.concatenate(times))
-    return unit_isi_table(spikes, duration_s=duration, **kw).set_index("unit")
+    return unit_isi_table(spikes, duration_s=duration,
+                          settings=MetricSettings(**kw)).set_index("unit")
 
 
 @pytest.mark.parametrize("rate", [5.0, 20.0, 50.0])
@@ -94,7 +96,8 @@ def test_hill_contamination_formula_and_simulation():
     extra = simulate.poisson_train(rate_hz=2.0, duration_s=T, rng=rng)
     times = np.sort(np.concatenate([clean, extra]))
     spikes = SpikeArrays.from_arrays(np.full(len(times), "u"), times)
-    row = unit_isi_table(spikes, duration_s=T, refractory_threshold_s=tR).iloc[0]
+    row = unit_isi_table(spikes, duration_s=T,
+                         settings=MetricSettings(refractory_threshold_s=tR)).iloc[0]
     truth = len(extra) / len(times)
     assert row["contamination_hill"] == pytest.approx(truth, abs=0.04)
 

@@ -85,3 +85,15 @@ def test_a_broken_direction_is_caught(tmp_path):
     bad = fake / "metrics" / "bad.py"
     bad.write_text("from spikevar.figures import style\nfrom ..synth import simulate\n")
     assert imported_subpackages(bad, fake) == {"figures", "synth"}
+
+
+def test_no_test_imports_a_private_helper():
+    # tests use a module's public names; a private helper is free to change
+    tests = Path(__file__).resolve().parent
+    found = []
+    for path in sorted(tests.glob("*.py")):
+        for node in ast.walk(ast.parse(path.read_text())):
+            if isinstance(node, ast.ImportFrom) and (node.module or "").startswith("spikevar"):
+                found += [f"{path.name}: {a.name}" for a in node.names
+                          if a.name.startswith("_") and not a.name.startswith("__")]
+    assert not found, found

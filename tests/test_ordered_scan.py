@@ -17,8 +17,9 @@ from hypothesis import strategies as st
 
 from spikevar.base.parquet_io import SPIKE_TABLE_OPTIONS, read_metadata, write_parquet_atomic
 from spikevar.base.spike_arrays import load_spikes
-from spikevar.inputs.ingest import ColumnNames, normalise_spikes
+from spikevar.inputs.ingest import normalise_spikes
 from spikevar.inputs.ordered_scan import scan_in_order
+from spikevar.inputs.settings import ColumnNames
 
 
 def batched(units, times, batch_rows):

@@ -5,8 +5,10 @@ import pandas as pd
 import pytest
 
 from spikevar.base.spike_arrays import SpikeArrays
-from spikevar.metrics.fano_timecourse import SlidingWindows, fano_timecourse_table
-from spikevar.population.fano import MeanMatchSettings, population_fano_table
+from spikevar.metrics.fano_timecourse import fano_timecourse_table
+from spikevar.metrics.settings import SlidingWindows
+from spikevar.population.fano import population_fano_table
+from spikevar.population.settings import MeanMatchSettings
 from spikevar.synth import simulate
 
 

@@ -7,6 +7,7 @@ from scipy import stats
 from spikevar.recovery import hazard_models
 from spikevar.recovery.fit import (
     Intervals,
+    exp_recovery_objective,
     exp_recovery_profile_loglik,
     fit_all,
     fit_dead_time,
@@ -16,7 +17,8 @@ from spikevar.recovery.fit import (
     ks_uniform,
     rescaled_intervals,
 )
-from spikevar.recovery.table import RecoverySettings, unit_recovery_rows
+from spikevar.recovery.settings import RecoverySettings
+from spikevar.recovery.table import unit_recovery_rows
 from spikevar.synth import simulate
 
 
@@ -56,16 +58,14 @@ def test_poisson_and_dead_time_closed_form_mles():
 
 def test_gradient_matches_finite_differences():
     iv, _ = intervals(simulate.ExpRecoveryISI(40.0, 0.008, 0.0015), 60, 2)
-    from spikevar.recovery.fit import _neg_loglik_and_grad
-
     theta = np.array([np.log(0.006), 0.4])
-    _, grad = _neg_loglik_and_grad(theta, iv)
+    _, grad = exp_recovery_objective(theta, iv)
     eps = 1e-6
     for j in range(2):
         step = np.zeros(2)
         step[j] = eps
-        fd = (_neg_loglik_and_grad(theta + step, iv)[0]
-              - _neg_loglik_and_grad(theta - step, iv)[0]) / (2 * eps)
+        fd = (exp_recovery_objective(theta + step, iv)[0]
+              - exp_recovery_objective(theta - step, iv)[0]) / (2 * eps)
         assert grad[j] == pytest.approx(fd, rel=1e-4)
 
 

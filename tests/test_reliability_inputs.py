@@ -12,17 +12,17 @@ from hypothesis import strategies as st
 
 from spikevar.base.errors import SpikevarInputError
 from spikevar.base.spike_arrays import load_spikes
-from spikevar.inputs.ingest import ColumnNames, ingest_session
+from spikevar.inputs.ingest import ingest_session
+from spikevar.inputs.settings import ColumnNames
 from spikevar.metrics.count_fano import count_fano_table
-from spikevar.metrics.fano_timecourse import SlidingWindows, fano_timecourse_table
+from spikevar.metrics.fano_timecourse import fano_timecourse_table
 from spikevar.metrics.isi import unit_isi_table
-from spikevar.recovery.table import RecoverySettings, recovery_table
-
-CASES = {"tried": 0}
+from spikevar.metrics.settings import SlidingWindows
+from spikevar.recovery.settings import RecoverySettings
+from spikevar.recovery.table import recovery_table
 
 
 def ingest(tmp_path, path, events=None, **kw):
-    CASES["tried"] += 1
     out = tmp_path / "out"
     ingest_session(session="adv", spikes_path=path, events_path=events, columns=ColumnNames(),
                    time_unit=kw.get("time_unit", "s"), sampling_rate_hz=None,
@@ -74,7 +74,10 @@ def test_generated_tables_never_crash(tmp_path, rows, fmt, time_unit):
         frame.to_parquet(path)
     else:
         frame.to_csv(path, sep="\t" if fmt == "tsv" else ",", index=False)
-    assert outcome(tmp_path, path, time_unit=time_unit) in ("ok", "refused")
+    result = outcome(tmp_path, path, time_unit=time_unit)  # anything but ok/refused fails
+    values = [v for _, v in rows]
+    if not rows or any(not np.isfinite(v) or v < 0 for v in values):
+        assert result == "refused"  # no spikes, or a NaN, infinite or negative time
 
 
 @pytest.mark.parametrize("name,content,expected", [
@@ -108,18 +111,18 @@ def test_semicolon_message_names_the_separator(tmp_path):
         ingest(tmp_path, path)
 
 
-@pytest.mark.parametrize("table", [
-    pa.table({"unit": ["a", "b"], "time": ["x", "1.0"]}),
-    pa.table({"unit": ["a", "b"], "time": [True, False]}),
-    pa.table({"unit": [[1], [2]], "time": [1.0, 2.0]}),
-    pa.table({"unit": ["a", "b"], "time": pa.array([1, 2], pa.timestamp("s"))}),
-    pa.table({"unit": [1.5, 2.5], "time": [1.0, 2.0]}),
-    pa.table({"cluster": ["a"], "t": [1.0]}),
+@pytest.mark.parametrize("table,expected", [
+    (pa.table({"unit": ["a", "b"], "time": ["x", "1.0"]}), "refused"),
+    (pa.table({"unit": ["a", "b"], "time": [True, False]}), "refused"),
+    (pa.table({"unit": [[1], [2]], "time": [1.0, 2.0]}), "refused"),
+    (pa.table({"unit": ["a", "b"], "time": pa.array([1, 2], pa.timestamp("s"))}), "refused"),
+    (pa.table({"unit": [1.5, 2.5], "time": [1.0, 2.0]}), "ok"),  # float ids read as text
+    (pa.table({"cluster": ["a"], "t": [1.0]}), "refused"),
 ])
-def test_parquet_with_wrong_types(tmp_path, table):
+def test_parquet_with_wrong_types(tmp_path, table, expected):
     path = tmp_path / "wrong.parquet"
     pq.write_table(table, path)
-    assert outcome(tmp_path, path) in ("ok", "refused")
+    assert outcome(tmp_path, path) == expected
 
 
 def test_gzip_of_garbage(tmp_path):
@@ -134,8 +137,6 @@ def test_gzip_of_garbage(tmp_path):
                           st.floats(min_value=0, max_value=1e5)), max_size=40))
 def test_metric_functions_on_generated_spikes(rows):
     from spikevar.base.spike_arrays import SpikeArrays
-
-    CASES["tried"] += 1
     spikes = SpikeArrays.from_arrays(np.array([u for u, _ in rows] or [], dtype=str),
                                      np.array([t for _, t in rows] or [], dtype=float))
     span = (0.0, max([t for _, t in rows], default=0.0))
@@ -157,9 +158,3 @@ def test_damaged_intermediate_is_reported_not_read(tmp_path):
     with pytest.raises(SpikevarInputError, match="damaged") as info:
         load_spikes(path, session="s9")
     assert "s9" in str(info.value) and "rerun" in str(info.value)
-
-
-def test_report_number_of_cases(capsys):
-    # printed for the closing note: how many adversarial cases the module tried
-    with capsys.disabled():
-        print(f"\nadversarial cases tried in this process: {CASES['tried']}")

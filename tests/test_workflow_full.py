@@ -57,6 +57,11 @@ def test_recovery_table_and_figures(full_run):
             assert column in rec.columns
         assert set(rec["model"]) == {"poisson", "dead_time", "exp_recovery"}
         assert (rec.groupby("unit")["preferred"].sum() == 1).all()
+        # the figure's KS labels are the table's ks_stat (one goodness of fit, computed once)
+        svg = (out / "figures" / "sessions" / f"{session}_recovery.svg").read_text()
+        first = rec[(rec["unit"] == rec["unit"].iloc[0]) & (rec["fit_kind"] == "stationary")]
+        for ks in first["ks_stat"].dropna():
+            assert f"KS {ks:.3f}" in svg
         png = out / "figures" / "sessions" / f"{session}_recovery.png"
         assert png.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
         assert png.stat().st_size > 20_000
@@ -101,6 +106,24 @@ def test_handoff_package(full_run):
     assert "snakemake" in manifest["packages"]
     dictionary = (out / "handoff" / "data_dictionary.md").read_text()
     assert "`isi_lvr`" in dictionary and "Shinomoto" in dictionary
+
+
+def test_every_written_file_is_declared_and_every_declared_file_written(full_run):
+    out, _, _ = full_run
+    work = out.parent
+    proc = run_snakemake(work, "--config", f"sessions={work / 'cohort' / 'sessions.tsv'}",
+                         "results=out", "--detailed-summary")
+    rows = [line.split("\t") for line in proc.stdout.splitlines() if line.startswith("out/")]
+    outputs = {r[0] for r in rows}
+    logs = {log for r in rows for log in r[3].split(",") if log and log != "-"}
+    written = {str(p.relative_to(work)) for p in out.rglob("*") if p.is_file()}
+    # Snakemake's own benchmark records and the report (written by --report, not by a rule)
+    extra = {w for w in written - outputs - logs
+             if not w.startswith("out/benchmarks/") and w != "out/report.html"}
+    assert not extra, f"written but declared by no rule: {sorted(extra)}"
+    assert any(o.endswith(".svg") for o in outputs)
+    missing = {o for o in outputs if not (work / o).is_file()}
+    assert not missing, f"declared but not written: {sorted(missing)}"
 
 
 def test_figures_and_report(full_run, tmp_path):

@@ -75,7 +75,7 @@ def test_keep_going_with_one_broken_session(tiny_cohort, tmp_path):
     assert set(units["session"]) == set(sheet["session"][1:])
     failed = pd.read_parquet(partial / "failed_sessions.parquet")
     assert failed["session"].tolist() == [broken]
-    assert failed["rule"].tolist() == ["ingest"]
+    assert failed["rule"].tolist() == ["ingest_session"]
     assert "Non-numeric" in failed["reason"].iloc[0]
-    assert f"session {broken} failed in ingest" in proc.stdout + proc.stderr
+    assert f"session {broken} failed in ingest_session:" in proc.stdout + proc.stderr
     assert not (tmp_path / "out" / "cohort" / "units.parquet").exists()

@@ -2,12 +2,10 @@
 
 rule cohort_table:
     input:
-        lambda w: expand(
-            f"{RESULTS}/sessions/{{session}}/{w.table}.parquet", session=SESSIONS
-        ),
+        lambda w: [LAYOUT.session_table(s, w.table) for s in SESSIONS],
     output:
-        parquet=f"{RESULTS}/cohort/{{table}}.parquet",
-        csv=f"{RESULTS}/cohort/{{table}}.csv" if config["cohort"]["csv_copies"] else [],
+        parquet=LAYOUT.cohort_table("{table}"),
+        csv=LAYOUT.cohort_table("{table}", "csv") if config["cohort"]["csv_copies"] else [],
     wildcard_constraints:
         table="|".join(SESSION_TABLES),
     params:
@@ -15,9 +13,9 @@ rule cohort_table:
         metadata=cohort_metadata(SHEET),
         code=code_fingerprint("cohort.tables"),
     log:
-        f"{RESULTS}/logs/cohort/{{table}}.log",
+        **LAYOUT.cohort_logs("{table}"),
     benchmark:
-        f"{RESULTS}/benchmarks/cohort/{{table}}.tsv"
+        LAYOUT.cohort_benchmark("{table}")
     conda:
         "../envs/spikevar.yaml"
     resources:

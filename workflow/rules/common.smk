@@ -1,8 +1,14 @@
 # Shared set-up: the checked sessions sheet and small helpers for input functions.
-from snakemake.exceptions import WorkflowError
 
-from spikevar.cohort.tables import SESSION_TABLES
-from spikevar.base.errors import SpikevarInputError
+from spikevar.base.layout import (
+    COHORT_FIGURES,
+    FIGURE_FORMATS,
+    NORMALISED_TABLES,
+    SESSION_ID_PATTERN,
+    SESSION_TABLES,
+    STATISTICS_TABLES,
+    ResultsLayout,
+)
 from spikevar.pipeline.fingerprints import code_fingerprint
 from spikevar.inputs.sheet import load_sheet
 from spikevar.pipeline.rule_inputs import (
@@ -13,7 +19,9 @@ from spikevar.pipeline.rule_inputs import (
     sheet_records,
 )
 
-RESULTS = config["results"].rstrip("/")
+# every path a rule writes comes from this one layout (spikevar.base.layout)
+LAYOUT = ResultsLayout(config["results"])
+RESULTS = LAYOUT.root
 try:
     SHEET = load_sheet(
         config["sessions"],
@@ -26,5 +34,5 @@ validate(SHEET, str(REPO / "workflow" / "schemas" / "sessions.schema.yaml"))
 SESSIONS = list(SHEET.index)
 
 wildcard_constraints:
-    session="[A-Za-z0-9][A-Za-z0-9_.-]*",
+    session=SESSION_ID_PATTERN,
 

@@ -1,47 +1,29 @@
-# Stage 6: the cohort figure set.
-
-COHORT_FIGURES = ["population_fano", "unit_metrics", "fano_by_window", "tau_vs_cv", "quality"]
+# Stage 6: the cohort figure set (each figure as PNG, in the report, and SVG).
+FIGURE_CATEGORY = {"quality": "Quality control"}
 
 
 rule cohort_figures:
     input:
-        units=f"{RESULTS}/cohort/units.parquet",
-        count_fano=f"{RESULTS}/cohort/count_fano.parquet",
-        recovery=f"{RESULTS}/cohort/recovery.parquet",
-        population_fano=f"{RESULTS}/cohort/population_fano.parquet",
-        group_summary=f"{RESULTS}/cohort/group_summary.parquet",
+        **{
+            t: LAYOUT.cohort_table(t)
+            for t in ("units", "count_fano", "recovery", "population_fano", "group_summary")
+        },
     output:
-        population_fano=report(
-            f"{RESULTS}/figures/population_fano.png",
-            caption="../report/population_fano.rst",
-            category="Cohort",
-        ),
-        unit_metrics=report(
-            f"{RESULTS}/figures/unit_metrics.png",
-            caption="../report/unit_metrics.rst",
-            category="Cohort",
-        ),
-        fano_by_window=report(
-            f"{RESULTS}/figures/fano_by_window.png",
-            caption="../report/fano_by_window.rst",
-            category="Cohort",
-        ),
-        tau_vs_cv=report(
-            f"{RESULTS}/figures/tau_vs_cv.png",
-            caption="../report/tau_vs_cv.rst",
-            category="Cohort",
-        ),
-        quality=report(
-            f"{RESULTS}/figures/quality.png",
-            caption="../report/quality.rst",
-            category="Quality control",
-        ),
+        **{
+            name: report(
+                LAYOUT.cohort_figure(name, "png"),
+                caption=f"../report/{name}.rst",
+                category=FIGURE_CATEGORY.get(name, "Cohort"),
+            )
+            for name in COHORT_FIGURES
+        },
+        **{f"{name}_svg": LAYOUT.cohort_figure(name, "svg") for name in COHORT_FIGURES},
     params:
-        code=code_fingerprint("figures.run"),
+        code=code_fingerprint("figures.run", "base.layout"),
     log:
-        f"{RESULTS}/logs/cohort/figures.log",
+        **LAYOUT.cohort_logs("figures"),
     benchmark:
-        f"{RESULTS}/benchmarks/cohort/cohort_figures.tsv"
+        LAYOUT.cohort_benchmark("cohort_figures")
     conda:
         "../envs/spikevar.yaml"
     resources:

@@ -3,30 +3,25 @@
 
 rule handoff:
     input:
-        tables=expand(
-            f"{RESULTS}/cohort/{{table}}.parquet",
-            table=[*SESSION_TABLES, "population_fano", "group_summary", "group_differences"],
-        ),
-        normalised=expand(
-            f"{RESULTS}/sessions/{{session}}/{{kind}}.parquet",
-            session=SESSIONS,
-            kind=("spikes", "events"),
-        ),
+        tables=[LAYOUT.cohort_table(t) for t in (*SESSION_TABLES, *STATISTICS_TABLES)],
+        normalised=[
+            LAYOUT.session_table(s, kind) for s in SESSIONS for kind in NORMALISED_TABLES
+        ],
     output:
-        failed=f"{RESULTS}/cohort/failed_sessions.parquet",
-        dictionary_md=f"{RESULTS}/handoff/data_dictionary.md",
-        dictionary_json=f"{RESULTS}/handoff/data_dictionary.json",
-        datapackage=f"{RESULTS}/datapackage.json",
-        manifest=f"{RESULTS}/handoff/manifest.json",
+        failed=LAYOUT.cohort_table("failed_sessions"),
+        dictionary_md=LAYOUT.handoff_file("data_dictionary.md"),
+        dictionary_json=LAYOUT.handoff_file("data_dictionary.json"),
+        datapackage=LAYOUT.datapackage(),
+        manifest=LAYOUT.handoff_file("manifest.json"),
     params:
         sheet=sheet_records(SHEET),
         config=config,
         repo=str(REPO),
         code=code_fingerprint("cohort.handoff", "cohort.data_dictionary", "cohort.tables"),
     log:
-        f"{RESULTS}/logs/cohort/handoff.log",
+        **LAYOUT.cohort_logs("handoff"),
     benchmark:
-        f"{RESULTS}/benchmarks/cohort/handoff.tsv"
+        LAYOUT.cohort_benchmark("handoff")
     conda:
         "../envs/spikevar.yaml"
     resources:

@@ -5,15 +5,14 @@ rule ingest_session:
     input:
         unpack(lambda w: ingest_inputs(SHEET, w.session)),
     output:
-        spikes=f"{RESULTS}/sessions/{{session}}/spikes.parquet",
-        events=f"{RESULTS}/sessions/{{session}}/events.parquet",
+        **{t: LAYOUT.session_table("{session}", t) for t in NORMALISED_TABLES},
     params:
         settings=lambda w: ingest_settings(SHEET, w.session, config),
         code=code_fingerprint("inputs.ingest"),
     log:
-        f"{RESULTS}/logs/sessions/{{session}}/ingest.log",
+        **LAYOUT.session_logs("{session}", "ingest"),
     benchmark:
-        f"{RESULTS}/benchmarks/sessions/{{session}}/ingest_session.tsv"
+        LAYOUT.session_benchmark("{session}", "ingest_session")
     conda:
         "../envs/spikevar.yaml"
     group:

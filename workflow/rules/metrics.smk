@@ -3,21 +3,21 @@
 
 rule session_metrics:
     input:
-        spikes=f"{RESULTS}/sessions/{{session}}/spikes.parquet",
-        events=f"{RESULTS}/sessions/{{session}}/events.parquet",
+        **{t: LAYOUT.session_table("{session}", t) for t in NORMALISED_TABLES},
     output:
-        units=f"{RESULTS}/sessions/{{session}}/units.parquet",
-        count_fano=f"{RESULTS}/sessions/{{session}}/count_fano.parquet",
-        fano_timecourse=f"{RESULTS}/sessions/{{session}}/fano_timecourse.parquet",
+        **{
+            t: LAYOUT.session_table("{session}", t)
+            for t in ("units", "count_fano", "fano_timecourse")
+        },
     params:
         metrics=config["metrics"],
         timecourse=config["timecourse"],
         duration_s=lambda w: recording_duration(SHEET, w.session),
-        code=code_fingerprint("metrics.session"),
+        code=code_fingerprint("metrics.session", "base.settings"),
     log:
-        f"{RESULTS}/logs/sessions/{{session}}/metrics.log",
+        **LAYOUT.session_logs("{session}", "metrics"),
     benchmark:
-        f"{RESULTS}/benchmarks/sessions/{{session}}/session_metrics.tsv"
+        LAYOUT.session_benchmark("{session}", "session_metrics")
     conda:
         "../envs/spikevar.yaml"
     group:

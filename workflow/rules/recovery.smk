@@ -3,17 +3,17 @@
 
 rule session_recovery:
     input:
-        spikes=f"{RESULTS}/sessions/{{session}}/spikes.parquet",
+        spikes=LAYOUT.session_table("{session}", "spikes"),
     output:
-        f"{RESULTS}/sessions/{{session}}/recovery.parquet",
+        LAYOUT.session_table("{session}", "recovery"),
     params:
         recovery=config["recovery"],
         duration_s=lambda w: recording_duration(SHEET, w.session),
-        code=code_fingerprint("recovery.table"),
+        code=code_fingerprint("recovery.table", "base.settings"),
     log:
-        f"{RESULTS}/logs/sessions/{{session}}/recovery.log",
+        **LAYOUT.session_logs("{session}", "recovery"),
     benchmark:
-        f"{RESULTS}/benchmarks/sessions/{{session}}/session_recovery.tsv"
+        LAYOUT.session_benchmark("{session}", "session_recovery")
     conda:
         "../envs/spikevar.yaml"
     group:
@@ -27,23 +27,24 @@ rule session_recovery:
 
 rule session_recovery_figure:
     input:
-        spikes=f"{RESULTS}/sessions/{{session}}/spikes.parquet",
-        recovery=f"{RESULTS}/sessions/{{session}}/recovery.parquet",
+        spikes=LAYOUT.session_table("{session}", "spikes"),
+        recovery=LAYOUT.session_table("{session}", "recovery"),
     output:
-        report(
-            f"{RESULTS}/figures/sessions/{{session}}_recovery.png",
+        png=report(
+            LAYOUT.recovery_figure("{session}", "png"),
             caption="../report/session_recovery.rst",
             category="Recovery fits",
             subcategory="{session}",
         ),
+        svg=LAYOUT.recovery_figure("{session}", "svg"),
     params:
-        max_units=config["figures"]["max_units_per_session"],
+        figures=config["figures"],
         duration_s=lambda w: recording_duration(SHEET, w.session),
-        code=code_fingerprint("figures.recovery"),
+        code=code_fingerprint("figures.recovery", "figures.settings", "base.settings"),
     log:
-        f"{RESULTS}/logs/sessions/{{session}}/recovery_figure.log",
+        **LAYOUT.session_logs("{session}", "recovery_figure"),
     benchmark:
-        f"{RESULTS}/benchmarks/sessions/{{session}}/session_recovery_figure.tsv"
+        LAYOUT.session_benchmark("{session}", "session_recovery_figure")
     conda:
         "../envs/spikevar.yaml"
     group:

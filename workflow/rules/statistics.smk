@@ -3,17 +3,17 @@
 
 rule population_fano:
     input:
-        f"{RESULTS}/cohort/fano_timecourse.parquet",
+        LAYOUT.cohort_table("fano_timecourse"),
     output:
-        f"{RESULTS}/cohort/population_fano.parquet",
+        LAYOUT.cohort_table("population_fano"),
     params:
-        settings=config["population"],
+        population=config["population"],
         seed=config["seed"],
-        code=code_fingerprint("population.run"),
+        code=code_fingerprint("population.run", "base.settings"),
     log:
-        f"{RESULTS}/logs/cohort/population_fano.log",
+        **LAYOUT.cohort_logs("population_fano"),
     benchmark:
-        f"{RESULTS}/benchmarks/cohort/population_fano.tsv"
+        LAYOUT.cohort_benchmark("population_fano")
     conda:
         "../envs/spikevar.yaml"
     resources:
@@ -25,20 +25,18 @@ rule population_fano:
 
 rule group_summary:
     input:
-        units=f"{RESULTS}/cohort/units.parquet",
-        count_fano=f"{RESULTS}/cohort/count_fano.parquet",
-        recovery=f"{RESULTS}/cohort/recovery.parquet",
+        **{t: LAYOUT.cohort_table(t) for t in ("units", "count_fano", "recovery")},
     output:
-        summary=f"{RESULTS}/cohort/group_summary.parquet",
-        differences=f"{RESULTS}/cohort/group_differences.parquet",
+        summary=LAYOUT.cohort_table("group_summary"),
+        differences=LAYOUT.cohort_table("group_differences"),
     params:
-        n_boot=config["bootstrap"]["n_boot"],
+        bootstrap=config["bootstrap"],
         seed=config["seed"],
-        code=code_fingerprint("cohort.run"),
+        code=code_fingerprint("cohort.run", "base.settings"),
     log:
-        f"{RESULTS}/logs/cohort/group_summary.log",
+        **LAYOUT.cohort_logs("group_summary"),
     benchmark:
-        f"{RESULTS}/benchmarks/cohort/group_summary.tsv"
+        LAYOUT.cohort_benchmark("group_summary")
     conda:
         "../envs/spikevar.yaml"
     resources:

@@ -55,3 +55,30 @@ class SpikevarInputError(ValueError):
             path=self.path if self.path is not None else path,
             where=self.where,
         )
+
+
+def is_disk_full(exc: BaseException) -> bool:
+    """True for an out-of-space error, from the OS (errno) or from Arrow (message only)."""
+    import errno
+
+    if not isinstance(exc, OSError):
+        return False
+    return exc.errno in (errno.ENOSPC, errno.EDQUOT) or "No space left on device" in str(exc)
+
+
+def disk_full_message(path) -> str:
+    """The one sentence a user sees when an output could not be written for lack of space."""
+    return f"no space left on device while writing {path}: free space and rerun"
+
+
+class OutputSpaceError(OSError):
+    """An output could not be written because the disk (or quota) is full; names the output."""
+
+    def __init__(self, path) -> None:
+        import errno
+
+        super().__init__(errno.ENOSPC, disk_full_message(path))
+        self.output_path = str(path)
+
+    def __str__(self) -> str:
+        return disk_full_message(self.output_path)

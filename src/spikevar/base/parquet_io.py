@@ -13,7 +13,7 @@ import pandas as pd
 import pyarrow as pa
 import pyarrow.parquet as pq
 
-from spikevar.base.errors import SpikevarInputError
+from spikevar.base.errors import OutputSpaceError, SpikevarInputError, is_disk_full
 
 METADATA_KEY = b"spikevar"
 
@@ -98,8 +98,10 @@ def write_parquet_atomic(table: pa.Table, path: str | os.PathLike, *,
             if late:  # without the stored Arrow schema the key-value pairs go in by hand
                 writer.add_key_value_metadata({k.decode(): v.decode() for k, v in pairs().items()})
         publish(tmp, path)
-    except BaseException:
+    except BaseException as exc:
         tmp.unlink(missing_ok=True)
+        if is_disk_full(exc):
+            raise OutputSpaceError(path) from None
         raise
 
 
@@ -114,11 +116,41 @@ def read_parquet_checked(path: str | os.PathLike, *, session: str | None = None)
             session=session, path=str(path)) from None
 
 
+def read_schema_checked(path: str | os.PathLike, *, session: str | None = None) -> pa.Schema:
+    """The schema of a Parquet file written by spikevar, refusing damaged files clearly."""
+    try:
+        return pq.read_schema(path)
+    except (pa.ArrowException, OSError) as exc:
+        raise SpikevarInputError(
+            f"The intermediate file is damaged or not Parquet ({exc}).",
+            fix="delete it and run the workflow again; it will be recomputed.",
+            session=session, path=str(path)) from None
+
+
 def read_metadata(path: str | os.PathLike) -> dict:
     """The spikevar metadata dictionary stored in a Parquet file's key-value metadata."""
     meta = pq.read_schema(path).metadata or {}
     raw = meta.get(METADATA_KEY)
     return json.loads(raw) if raw else {}
+
+
+def write_with_temporary(path: str | os.PathLike, write: Callable[[Path], None]) -> None:
+    """Call ``write(tmp)`` on a temporary sibling of ``path``, then publish it as ``path``.
+
+    For outputs that are not Parquet (figures, JSON, Markdown): the output appears complete or
+    not at all, and a full disk is reported with the output's name.
+    """
+    path = Path(path)
+    path.parent.mkdir(parents=True, exist_ok=True)
+    tmp = temporary_sibling(path)
+    try:
+        write(tmp)
+        publish(tmp, path)
+    except BaseException as exc:
+        tmp.unlink(missing_ok=True)
+        if is_disk_full(exc):
+            raise OutputSpaceError(path) from None
+        raise
 
 
 def read_frame(path) -> pd.DataFrame:

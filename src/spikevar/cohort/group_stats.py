@@ -57,8 +57,8 @@ def _pct(x, q):
         return np.nanpercentile(x, q) if np.isfinite(x).any() else np.nan
 
 
-def group_summary(frame: pd.DataFrame, *, n_boot: int = 1000,
-                  seed: int = 0) -> tuple[pd.DataFrame, pd.DataFrame]:
+def group_summary(frame: pd.DataFrame, *, n_boot: int,
+                  seed: int) -> tuple[pd.DataFrame, pd.DataFrame]:
     """Per metric x group: n, mean, median with 95% hierarchical-bootstrap intervals; per
     metric x pair of groups: differences of means and medians with intervals and p-values.
 

@@ -13,7 +13,7 @@ import pyarrow as pa
 import pyarrow.parquet as pq
 
 from spikevar import __version__
-from spikevar.base.parquet_io import read_metadata
+from spikevar.base.parquet_io import read_metadata, write_with_temporary
 from spikevar.cohort.data_dictionary import describe, to_markdown
 
 
@@ -28,9 +28,7 @@ def _frictionless_type(arrow_type: pa.DataType) -> str:
 
 
 def write_atomic_text(path: Path, text: str) -> None:
-    tmp = path.with_name(f".{path.name}.tmp")
-    tmp.write_text(text)
-    tmp.replace(path)
+    write_with_temporary(path, lambda tmp: tmp.write_text(text))
 
 
 def write_data_dictionary(tables: dict[str, str], *, markdown: Path, json_path: Path) -> None:

@@ -9,16 +9,15 @@ import pyarrow as pa
 import pyarrow.csv as pacsv
 import pyarrow.parquet as pq
 
+from spikevar.base.errors import OutputSpaceError, is_disk_full
 from spikevar.base.parquet_io import (
     METADATA_KEY,
     publish,
     read_parquet_checked,
+    read_schema_checked,
     temporary_sibling,
     write_parquet_atomic,
 )
-
-#: per-session tables that are concatenated into cohort tables
-SESSION_TABLES = ("units", "count_fano", "fano_timecourse", "recovery")
 
 
 def _with_metadata(table: pa.Table, meta: dict[str, str], meta_columns: list[str]) -> pa.Table:
@@ -71,7 +70,7 @@ def assemble_cohort_table(inputs: dict[str, str], metadata: dict[str, dict[str, 
     output = Path(output)
     output.parent.mkdir(parents=True, exist_ok=True)
     sessions = list(inputs)
-    schemas = [pq.read_schema(inputs[s]) for s in sessions]
+    schemas = [read_schema_checked(inputs[s], session=s) for s in sessions]
     probe = [_with_metadata(sch.empty_table(), metadata[s], meta_columns)
              for s, sch in zip(sessions, schemas, strict=True)]
     schema = _unify(probe) if probe else pa.schema([(c, pa.string()) for c in meta_columns])
@@ -94,6 +93,10 @@ def assemble_cohort_table(inputs: dict[str, str], metadata: dict[str, dict[str, 
         publish(tmp, output)
         if tmp_csv is not None:
             publish(tmp_csv, Path(csv_output))
+    except OSError as exc:
+        if is_disk_full(exc):
+            raise OutputSpaceError(output) from None
+        raise
     finally:
         tmp.unlink(missing_ok=True)
         if tmp_csv is not None:

@@ -9,25 +9,11 @@ from spikevar.base.parquet_io import read_parquet_checked
 from spikevar.base.spike_arrays import load_spikes
 from spikevar.figures import style as figure_style
 from spikevar.recovery import hazard_models
-from spikevar.recovery.fit import ks_uniform
 
 
-def model_cdf(row: pd.Series, s: np.ndarray) -> np.ndarray:
-    """ISI distribution function of a fitted stationary model row."""
-    r, d = row["asymptotic_rate_hz"], row["dead_time_s"]
-    if row["model"] == "exp_recovery":
-        return hazard_models.exp_recovery_cdf(s, asymptotic_rate_hz=r, tau_s=row["recovery_tau_s"],
-                                              dead_time_s=d)
-    return -np.expm1(-r * np.maximum(s - d, 0.0))
-
-
-def model_pdf(row: pd.Series, s: np.ndarray) -> np.ndarray:
-    """ISI density (1/s) of a fitted stationary model row."""
-    r, d = row["asymptotic_rate_hz"], row["dead_time_s"]
-    if row["model"] == "exp_recovery":
-        return hazard_models.exp_recovery_pdf(s, asymptotic_rate_hz=r,
-                                              tau_s=row["recovery_tau_s"], dead_time_s=d)
-    return np.where(s > d, r * np.exp(-r * np.maximum(s - d, 0.0)), 0.0)
+def _model_args(row: pd.Series) -> dict:
+    return {"rate_hz": row["asymptotic_rate_hz"], "tau_s": row["recovery_tau_s"],
+            "dead_time_s": row["dead_time_s"]}
 
 
 def draw_session_recovery(*, session: str, spikes_path, recovery_path, output, max_units: int,
@@ -68,11 +54,13 @@ def draw_session_recovery(*, session: str, spikes_path, recovery_path, output, m
             if not np.isfinite(row["log_likelihood"]):
                 continue
             style = figure_style.MODEL_STYLE[row["model"]]
-            dens_ax.plot(np.log10(s), model_pdf(row, s) * s * np.log(10), lw=1.4, **style)
-            z = np.sort(model_cdf(row, isi))
+            pdf = hazard_models.model_pdf(row["model"], s, **_model_args(row))
+            dens_ax.plot(np.log10(s), pdf * s * np.log(10), lw=1.4, **style)
+            z = np.sort(hazard_models.model_cdf(row["model"], isi, **_model_args(row)))
+            # the label is the table's ks_stat: one goodness of fit, computed once
             ks_ax.plot(quantiles, z, lw=1.2, **{**style, "label": f"{style['label']} "
-                                                f"(KS {ks_uniform(z)[0]:.3f})"})
-        band = 1.36 / np.sqrt(len(isi))
+                                                f"(KS {row['ks_stat']:.3f})"})
+        band = rows["ks_band_95"].iloc[0]
         ks_ax.plot([0, 1], [0, 1], color=figure_style.INK, lw=0.8)
         ks_ax.fill_between([0, 1], [-band, 1 - band], [band, 1 + band], color="#e8ecf1",
                            label="95% band")

@@ -39,9 +39,14 @@ def save(fig, path, *, trim: bool = True) -> None:
     """
     from pathlib import Path
 
+    from spikevar.base.parquet_io import write_with_temporary
+
     path = Path(path)
-    path.parent.mkdir(parents=True, exist_ok=True)
     bbox = "tight" if trim else None
-    fig.savefig(path, bbox_inches=bbox)
-    fig.savefig(path.with_suffix(".svg"), bbox_inches=bbox)
-    plt.close(fig)
+    try:
+        for out in (path, path.with_suffix(".svg")):
+            fmt = out.suffix.lstrip(".")
+            write_with_temporary(out, lambda tmp, fmt=fmt: fig.savefig(tmp, format=fmt,
+                                                                       bbox_inches=bbox))
+    finally:
+        plt.close(fig)

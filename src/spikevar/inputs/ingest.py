@@ -22,6 +22,7 @@ from spikevar.base.errors import SpikevarInputError
 from spikevar.base.parquet_io import SPIKE_TABLE_OPTIONS, sha256_of_file, write_parquet_atomic
 from spikevar.base.unit_order import unit_sort_order
 from spikevar.inputs import ordered_scan, readers, time_units
+from spikevar.inputs.settings import ColumnNames
 
 log = logging.getLogger(__name__)
 
@@ -30,20 +31,6 @@ log = logging.getLogger(__name__)
 SPIKES_SCHEMA = pa.schema([("unit", pa.dictionary(pa.int32(), pa.string())),
                            ("time_s", pa.float64())])
 EVENTS_SCHEMA = pa.schema([("time_s", pa.float64()), ("condition", pa.string())])
-
-
-@dataclass(frozen=True)
-class ColumnNames:
-    """Names of the raw columns (config ``columns``)."""
-
-    unit: str = "unit"
-    time: str = "time"
-    event_time: str = "time"
-    event_condition: str = "condition"
-
-    @classmethod
-    def from_config(cls, columns: dict | None) -> ColumnNames:
-        return cls(**{k: v for k, v in (columns or {}).items() if k in cls.__dataclass_fields__})
 
 
 @dataclass
@@ -172,7 +159,7 @@ def normalise_spikes(
         report.rows_written, report.n_units = out.num_rows, in_order.n_units
         report.first_s, report.last_s = in_order.first_s, in_order.last_s
         return out, report
-    units = pc.cast(unit_col, pa.string()) if unit_col.type != pa.string() else unit_col
+    units = readers.as_text_column(unit_col, name=columns.unit)
     raw = _numeric_times(table.column(columns.time), name=columns.time, text=text_source)
     seconds = time_units.to_seconds(raw, time_unit=time_unit, sampling_rate_hz=sampling_rate_hz)
 
@@ -258,7 +245,7 @@ def normalise_events(
         raise SpikevarInputError(
             f"Empty condition at row(s) {_row_list(mask, text=text_source)}.",
             fix="give every event a condition label.", where=f"column {columns.event_condition!r}")
-    cond = pc.cast(cond, pa.string())
+    cond = readers.as_text_column(cond, name=columns.event_condition)
     extras = [c for c in table.column_names
               if c not in (columns.event_time, columns.event_condition, "time_s", "condition")]
     order = np.argsort(seconds, kind="stable")
@@ -298,15 +285,6 @@ def _read_raw(path: Path, *, columns: ColumnNames, kind: str) -> tuple[pa.Table,
         return readers.read_text_table(path, string_columns=(columns.unit,),
                                        float_columns=(columns.time,)), True, False
     return readers.read_text_table(path, string_columns=(columns.event_condition,)), True, False
-
-
-def _uninterpretable(exc: Exception, *, session: str, path) -> SpikevarInputError:
-    """A table that was read but whose column types cannot be interpreted."""
-    return SpikevarInputError(
-        f"The table's columns could not be interpreted ({type(exc).__name__}: "
-        f"{str(exc).splitlines()[0] if str(exc) else 'no detail'}).",
-        fix="unit ids must be text or integers and times plain numbers, one spike per row.",
-        session=session, path=str(path))
 
 
 def _check_readable(path: Path, *, session: str) -> None:
@@ -395,8 +373,6 @@ def _ingest_session(*, session, spikes_path, events_path, columns, time_unit, sa
             sampling_rate_hz=sampling_rate_hz, hasher=hasher)
     except SpikevarInputError as err:
         raise err.with_context(session=session, path=str(spikes_path)) from None
-    except (pa.ArrowException, ValueError, TypeError) as exc:
-        raise _uninterpretable(exc, session=session, path=spikes_path) from None
     span = (spikes_meta["first_spike_s"], spikes_meta["last_spike_s"])
     if events_path is None or str(events_path) == "":
         events, events_meta = empty_events(), {"kind": "events", "session": session,
@@ -408,8 +384,6 @@ def _ingest_session(*, session, spikes_path, events_path, columns, time_unit, sa
                                                  sampling_rate_hz=sampling_rate_hz, span=span)
         except SpikevarInputError as err:
             raise err.with_context(session=session, path=str(events_path)) from None
-        except (pa.ArrowException, ValueError, TypeError) as exc:
-            raise _uninterpretable(exc, session=session, path=events_path) from None
 
     def spikes_metadata() -> dict:  # asked for after the rows are written
         spikes_meta["source_sha256"] = digest.result()

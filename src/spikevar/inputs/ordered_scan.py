@@ -24,6 +24,7 @@ import pyarrow as pa
 import pyarrow.compute as pc
 
 from spikevar.base.unit_order import unit_sort_order
+from spikevar.inputs.readers import as_text_column
 
 #: More unit runs than this means the rows are not grouped by unit (for example sorted by time
 #: with the units interleaved); the scan then stops early and leaves the table to the full path.
@@ -79,8 +80,8 @@ def scan_in_order(table: pa.Table, *, unit_column: str, time_column: str,
         n = batch.num_rows
         if n == 0:
             continue
-        units = batch.column(0) if _is_text(batch.column(0).type) else pc.cast(
-            batch.column(0), pa.string())
+        units = batch.column(0) if _is_text(batch.column(0).type) else as_text_column(
+            batch.column(0), name=unit_column)
         raw = batch.column(1).to_numpy(zero_copy_only=False)
         times = (raw / divide_by if divide_by is not None
                  else raw if keep_raw else raw.astype(np.float64) * seconds_per_tick)

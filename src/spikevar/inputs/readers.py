@@ -11,6 +11,7 @@ from pathlib import Path
 
 import numpy as np
 import pyarrow as pa
+import pyarrow.compute as pc
 import pyarrow.csv as pacsv
 import pyarrow.parquet as pq
 
@@ -165,3 +166,20 @@ def read_nwb_trials(path: str | Path, *, time_column: str, condition_column: str
         return pa.Table.from_pandas(frame[keep], preserve_index=False)
     finally:
         io.close()
+
+
+def as_text_column(column, *, name: str):
+    """Unit ids or condition labels as text; refuses a column type that has no text form.
+
+    This is the one place a raw id/label column is converted, so the conversion's own errors
+    (a list or struct column, say) become a message naming the column; nothing else is caught.
+    """
+    if pa.types.is_string(column.type):
+        return column
+    try:
+        return pc.cast(column, pa.string())
+    except (pa.ArrowInvalid, pa.ArrowNotImplementedError, pa.ArrowTypeError):
+        raise SpikevarInputError(
+            f"The column holds {column.type} values, which cannot be read as ids or labels.",
+            fix="store unit ids and condition labels as text or integers, one per row.",
+            where=f"column {name!r}") from None

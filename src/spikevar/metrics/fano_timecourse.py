@@ -2,12 +2,11 @@
 
 from __future__ import annotations
 
-from dataclasses import dataclass
-
 import numpy as np
 import pandas as pd
 
 from spikevar.base.spike_arrays import SpikeArrays
+from spikevar.metrics.settings import SlidingWindows
 
 REASON_NO_TRIALS = "no trial inside the recording"
 REASON_ONE_TRIAL = "single trial"
@@ -15,23 +14,6 @@ REASON_ZERO_MEAN = "zero mean count"
 
 COLUMNS = ["unit", "condition", "time_s", "window_s", "n_trials", "n_trials_dropped",
            "mean_count", "var_count", "fano", "rate_hz", "fano_reason"]
-
-
-@dataclass(frozen=True)
-class SlidingWindows:
-    """Counting windows relative to each event: ``[start + k step, start + k step + width)``.
-
-    Windows are laid from ``start_s`` while they end at or before ``stop_s``.
-    """
-
-    start_s: float = -0.5
-    stop_s: float = 1.0
-    width_s: float = 0.1
-    step_s: float = 0.025
-
-    def left_edges(self) -> np.ndarray:
-        n = int(np.floor((self.stop_s - self.start_s - self.width_s) / self.step_s + 1e-9)) + 1
-        return self.start_s + self.step_s * np.arange(max(n, 0))
 
 
 def trial_counts(times: np.ndarray, events: np.ndarray, left_edges: np.ndarray,

@@ -12,6 +12,7 @@ import pandas as pd
 
 from spikevar.base.spike_arrays import SpikeArrays
 from spikevar.metrics.segments import drop_boundaries, segment_sums, unit_blocks
+from spikevar.metrics.settings import MetricSettings
 
 REASON_FEW_SPIKES = "fewer than 3 spikes"
 REASON_ZERO_DURATION = "zero-length recording"
@@ -89,9 +90,7 @@ def unit_isi_table(
     spikes: SpikeArrays,
     *,
     duration_s: float,
-    lvr_refractory_s: float = 0.005,
-    refractory_threshold_s: float = 0.0015,
-    censored_period_s: float = 0.0,
+    settings: MetricSettings | None = None,
 ) -> pd.DataFrame:
     """One row per unit: counts, rate and ISI variability measures.
 
@@ -101,12 +100,10 @@ def unit_isi_table(
         The session's spikes.
     duration_s
         Recording length used for ``rate_hz`` and the contamination estimate.
-    lvr_refractory_s
-        Refractoriness constant R of LvR (Shinomoto et al. 2009 recommend 5 ms).
-    refractory_threshold_s
-        ISIs shorter than this count as refractory-period violations.
-    censored_period_s
-        Sorter's censored period after each spike (Hill et al. 2011 tC), usually 0.
+    settings
+        Config ``metrics``: ``lvr_refractory_s`` (R of LvR; Shinomoto et al. 2009 recommend
+        5 ms), ``refractory_threshold_s`` (ISIs shorter than this are violations) and
+        ``censored_period_s`` (Hill et al. 2011 tC, usually 0).
 
     Returns
     -------
@@ -129,6 +126,10 @@ def unit_isi_table(
       same time give an ISI of 0; a pair of zero ISIs has an undefined ratio and is left out of
       CV2/LV/LvR.
     """
+    settings = settings or MetricSettings()  # its defaults are the config's defaults
+    lvr_refractory_s = settings.lvr_refractory_s
+    refractory_threshold_s = settings.refractory_threshold_s
+    censored_period_s = settings.censored_period_s
     n_units = spikes.n_units
     offsets = spikes.bounds()
     n_spikes = np.diff(offsets)

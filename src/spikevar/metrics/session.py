@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 import logging
-from dataclasses import asdict, dataclass, field
+from dataclasses import asdict
 from pathlib import Path
 
 import numpy as np
@@ -14,56 +14,37 @@ from spikevar.base.spike_arrays import SpikeArrays, load_spikes, recording_span
 from spikevar.metrics.count_fano import count_fano_table
 from spikevar.metrics.fano_timecourse import SlidingWindows, fano_timecourse_table
 from spikevar.metrics.isi import unit_isi_table
+from spikevar.metrics.settings import MetricSettings
 
 log = logging.getLogger(__name__)
 
-DEFAULT_WINDOWS_S = (0.01, 0.02, 0.05, 0.1, 0.2, 0.5, 1.0, 2.0)
-
-
-@dataclass(frozen=True)
-class MetricSettings:
-    """Metric parameters (config ``metrics`` and ``timecourse``)."""
-
-    lvr_refractory_s: float = 0.005
-    refractory_threshold_s: float = 0.0015
-    censored_period_s: float = 0.0
-    counting_windows_s: tuple[float, ...] = DEFAULT_WINDOWS_S
-    timecourse: SlidingWindows = field(default_factory=SlidingWindows)
-
-    @classmethod
-    def from_config(cls, metrics: dict | None, timecourse: dict | None) -> MetricSettings:
-        metrics = dict(metrics or {})
-        if "counting_windows_s" in metrics:
-            metrics["counting_windows_s"] = tuple(float(w) for w in metrics["counting_windows_s"])
-        return cls(**metrics, timecourse=SlidingWindows(**(timecourse or {})))
-
-
 def compute_tables(spikes: SpikeArrays, events: pd.DataFrame, *, settings: MetricSettings,
-                   duration_s: float | None = None) -> dict[str, pd.DataFrame]:
+                   windows: SlidingWindows, duration_s: float | None = None
+                   ) -> dict[str, pd.DataFrame]:
     """The three per-session tables (without the session column)."""
     start, stop = recording_span(spikes, duration_s)
-    units = unit_isi_table(spikes, duration_s=stop - start,
-                           lvr_refractory_s=settings.lvr_refractory_s,
-                           refractory_threshold_s=settings.refractory_threshold_s,
-                           censored_period_s=settings.censored_period_s)
+    units = unit_isi_table(spikes, duration_s=stop - start, settings=settings)
     counts = count_fano_table(spikes, windows_s=settings.counting_windows_s, start_s=start,
                               stop_s=stop)
     longest = max(settings.counting_windows_s)
     ff_long = counts.loc[counts["window_s"] == longest].set_index("unit")["fano"]
     units["fano_longest_window_s"] = longest
     units["fano_to_cv2"] = units["unit"].map(ff_long).to_numpy() / units["isi_cv"] ** 2
-    timecourse = fano_timecourse_table(spikes, events, windows=settings.timecourse,
+    timecourse = fano_timecourse_table(spikes, events, windows=windows,
                                        recording_s=(start, stop))
     return {"units": units, "count_fano": counts, "fano_timecourse": timecourse}
 
 
 def run_session_metrics(*, session: str, spikes_path, events_path, outputs: dict[str, str],
-                        settings: MetricSettings, duration_s: float | None = None) -> None:
+                        settings: MetricSettings, windows: SlidingWindows,
+                        duration_s: float | None = None) -> None:
     """Read a session's normalised tables, compute the metrics, write each table atomically."""
     spikes = load_spikes(spikes_path, session=session)
     events = read_parquet_checked(events_path, session=session).to_pandas()
-    tables = compute_tables(spikes, events, settings=settings, duration_s=duration_s)
-    meta = {"session": session, "settings": asdict(settings), "duration_s": duration_s}
+    tables = compute_tables(spikes, events, settings=settings, windows=windows,
+                            duration_s=duration_s)
+    meta = {"session": session, "settings": asdict(settings), "timecourse": asdict(windows),
+            "duration_s": duration_s}
     for name, frame in tables.items():
         frame.insert(0, "session", session)
         write_parquet_atomic(frame_to_arrow(frame), Path(outputs[name]), metadata=meta)

@@ -22,24 +22,15 @@ across-trial ``mean_count`` and ``var_count``). For every group x condition x wi
 from __future__ import annotations
 
 import warnings
-from dataclasses import dataclass
 
 import numpy as np
 import pandas as pd
 
+from spikevar.population.settings import MeanMatchSettings
+
 COLUMNS = ["group", "condition", "time_s", "window_s", "n_units", "mean_count",
            "fano_regression", "regression_ci_lo", "regression_ci_hi", "fano_mean_matched",
            "ci_lo", "ci_hi", "n_units_matched", "population_reason"]
-
-
-@dataclass(frozen=True)
-class MeanMatchSettings:
-    """Config ``population``."""
-
-    n_bins: int = 10
-    n_repeats: int = 10
-    n_boot: int = 200
-    min_units: int = 5
 
 
 def slope_through_origin(mean: np.ndarray, var: np.ndarray, axis: int = -1) -> np.ndarray:

@@ -3,16 +3,19 @@
 from __future__ import annotations
 
 import logging
+from dataclasses import asdict
 
 from spikevar.base.parquet_io import frame_to_arrow, read_frame, write_parquet_atomic
-from spikevar.population.fano import MeanMatchSettings, population_fano_table
+from spikevar.population.fano import population_fano_table
+from spikevar.population.settings import MeanMatchSettings
 
 log = logging.getLogger(__name__)
 
 
-def run_population_fano(*, timecourse_path, output, settings: dict, seed: int) -> None:
+def run_population_fano(*, timecourse_path, output, settings: MeanMatchSettings,
+                        seed: int) -> None:
     timecourse = read_frame(timecourse_path)
-    table = population_fano_table(timecourse, settings=MeanMatchSettings(**settings), seed=seed)
+    table = population_fano_table(timecourse, settings=settings, seed=seed)
     write_parquet_atomic(frame_to_arrow(table), output,
-                         metadata={"settings": settings, "seed": seed})
+                         metadata={"settings": asdict(settings), "seed": seed})
     log.info("population Fano factor: %d rows", len(table))

@@ -31,6 +31,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import optimize, stats
 
+from spikevar.recovery import hazard_models
 from spikevar.recovery.slow_rate import interval_weights
 
 MODELS = ("poisson", "dead_time", "exp_recovery")
@@ -113,7 +114,10 @@ def exp_recovery_profile_loglik(iv: Intervals, tau: float, d: float) -> float:
     return iv.n * np.log(iv.n / D) + iv.sum_log_w + L - iv.n
 
 
-def _neg_loglik_and_grad(theta, iv: Intervals):
+def exp_recovery_objective(theta, iv: Intervals):
+    """Negative profile log-likelihood of exp_recovery and its gradient, in the optimiser's
+    coordinates ``theta = (log tau, d / shortest interval)`` (public so tests can check the
+    gradient against finite differences)."""
     log_tau, d_frac = theta
     tau, d = np.exp(log_tau), d_frac * iv.min_isi
     D, dD_tau, dD_d, L, dL_tau, dL_d = _recovery_terms(iv, tau, d)
@@ -187,9 +191,9 @@ def fit_exp_recovery(iv: Intervals, *, with_interval: bool = True) -> Fit:
     bounds = [(np.log(lo), np.log(hi)), (0.0, 1.0 - 1e-6)]
     starts = [(np.log(np.clip(f * iv.mean_isi, lo, hi)), df)
               for f in (0.01, 0.03, 0.1, 0.3, 1.0) for df in (0.0, 0.5)]
-    values = [_neg_loglik_and_grad(np.array(s), iv)[0] for s in starts]
+    values = [exp_recovery_objective(np.array(s), iv)[0] for s in starts]
     x0 = np.array(starts[int(np.argmin(values))])
-    res = optimize.minimize(_neg_loglik_and_grad, x0, args=(iv,), jac=True, method="L-BFGS-B",
+    res = optimize.minimize(exp_recovery_objective, x0, args=(iv,), jac=True, method="L-BFGS-B",
                             bounds=bounds, options={"maxiter": 200, "ftol": 1e-12,
                                                     "gtol": 1e-8})
     tau, d = float(np.exp(res.x[0])), float(res.x[1] * iv.min_isi)
@@ -213,7 +217,7 @@ def _profile_over_d(iv: Intervals, tau: float, d_start: float) -> tuple[float, f
     Returns the maximum and the maximising ``d``.
     """
     def negative(frac):
-        value, grad = _neg_loglik_and_grad(np.array([np.log(tau), frac[0]]), iv)
+        value, grad = exp_recovery_objective(np.array([np.log(tau), frac[0]]), iv)
         return value, grad[1:]
 
     start = np.clip(d_start / iv.min_isi, 0.0, 1.0 - 1e-6)
@@ -264,15 +268,12 @@ def profile_tau_interval(iv: Intervals, *, tau_hat: float, loglik_hat: float,
 
 
 def cumulative_hazard(fit: Fit, iv: Intervals) -> np.ndarray:
-    """Fitted ``H`` of each (uncensored) interval, weights included (for time rescaling)."""
-    if fit.model == "poisson":
-        g = iv.isi
-    elif fit.model == "dead_time":
-        g = np.maximum(iv.isi - fit.dead_time_s, 0.0)
-    else:
-        u = np.maximum(iv.isi - fit.dead_time_s, 0.0)
-        g = u - fit.tau_s * -np.expm1(-u / fit.tau_s)
-    return fit.rate_hz * iv.weights * g
+    """Fitted ``H`` of each (uncensored) interval, weights included (for time rescaling).
+
+    ``H`` is linear in the rate, so an interval's weight (its slow-rate factor) multiplies it.
+    """
+    return iv.weights * hazard_models.model_cumulative_hazard(
+        fit.model, iv.isi, rate_hz=fit.rate_hz, tau_s=fit.tau_s, dead_time_s=fit.dead_time_s)
 
 
 def ks_uniform(z: np.ndarray) -> tuple[float, float]:

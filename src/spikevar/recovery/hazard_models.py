@@ -68,6 +68,42 @@ def exp_recovery_pdf(s, *, asymptotic_rate_hz, tau_s, dead_time_s=0.0):
     return exp_recovery_hazard(s, **kw) * exp_recovery_survival(s, **kw)
 
 
+#: the three nested models, as special cases of exponential recovery
+MODELS = ("poisson", "dead_time", "exp_recovery")
+
+
+def nested_parameters(model: str, *, tau_s, dead_time_s) -> tuple[float, float]:
+    """``(tau, d)`` of a fitted model as exponential recovery: poisson has ``tau = d = 0``,
+    dead_time ``tau = 0`` (their table rows hold NaN for parameters they do not have)."""
+    if model == "poisson":
+        return 0.0, 0.0
+    if model == "dead_time":
+        return 0.0, float(dead_time_s)
+    if model == "exp_recovery":
+        return float(tau_s), float(dead_time_s)
+    raise ValueError(f"unknown model {model!r}; expected one of {MODELS}")
+
+
+def model_cumulative_hazard(model: str, s, *, rate_hz, tau_s=np.nan, dead_time_s=0.0):
+    """Cumulative hazard ``H(s)`` of any of the three models (the one implementation the fits'
+    goodness of fit and the figures use)."""
+    tau, d = nested_parameters(model, tau_s=tau_s, dead_time_s=dead_time_s)
+    return exp_recovery_cumulative_hazard(s, asymptotic_rate_hz=rate_hz, tau_s=tau,
+                                          dead_time_s=d)
+
+
+def model_cdf(model: str, s, *, rate_hz, tau_s=np.nan, dead_time_s=0.0):
+    """ISI distribution function ``1 - exp(-H(s))`` of any of the three models."""
+    return -np.expm1(-model_cumulative_hazard(model, s, rate_hz=rate_hz, tau_s=tau_s,
+                                              dead_time_s=dead_time_s))
+
+
+def model_pdf(model: str, s, *, rate_hz, tau_s=np.nan, dead_time_s=0.0):
+    """ISI density ``h(s) exp(-H(s))`` (1/s) of any of the three models."""
+    tau, d = nested_parameters(model, tau_s=tau_s, dead_time_s=dead_time_s)
+    return exp_recovery_pdf(s, asymptotic_rate_hz=rate_hz, tau_s=tau, dead_time_s=d)
+
+
 def exp_recovery_moments(*, asymptotic_rate_hz, tau_s, dead_time_s=0.0):
     """Mean ISI (s) and ISI coefficient of variation by numerical integration of the survival.
 

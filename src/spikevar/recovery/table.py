@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 import logging
-from dataclasses import asdict, dataclass
+from dataclasses import asdict
 
 import numpy as np
 import pandas as pd
@@ -18,23 +18,13 @@ from spikevar.recovery.fit import (
     ks_uniform,
     rescaled_intervals,
 )
+from spikevar.recovery.settings import RecoverySettings
 
 log = logging.getLogger(__name__)
 
 COLUMNS = ["unit", "model", "fit_kind", "asymptotic_rate_hz", "recovery_tau_s", "dead_time_s",
            "tau_ci_lo", "tau_ci_hi", "log_likelihood", "aic", "ks_stat", "ks_pvalue",
            "ks_band_95", "n_intervals", "converged", "preferred", "fit_note"]
-
-
-@dataclass(frozen=True)
-class RecoverySettings:
-    """Config ``recovery``."""
-
-    min_intervals: int = 50
-    slow_rate_bandwidth_s: float = 2.0
-    modulated_fit: bool = True
-    tau_interval: bool = True
-    modulated_tau_interval: bool = False
 
 
 def _row(unit: str, fit: Fit, iv: Intervals | None, kind: str) -> dict:

@@ -81,7 +81,7 @@ def simulate_session(rng: np.random.Generator, *, group: str, size: DemoSize):
     return spikes, events
 
 
-def _write_nwb(path: Path, spikes: pd.DataFrame, events: pd.DataFrame, session: str,
+def write_nwb(path: Path, spikes: pd.DataFrame, events: pd.DataFrame, session: str,
                subject: str) -> None:
     from pynwb import NWBHDF5IO, NWBFile
     from pynwb.file import Subject
@@ -132,7 +132,7 @@ def write_session(folder: Path, session: str, subject: str, spikes: pd.DataFrame
         row.update(spikes=f"{session}_spikes.csv", events=f"{session}_events.csv",
                    time_unit="samples", sampling_rate_hz=f"{SAMPLING_RATE_HZ:g}")
     elif fmt == "nwb":
-        _write_nwb(folder / f"{session}.nwb", spikes, events, session, subject)
+        write_nwb(folder / f"{session}.nwb", spikes, events, session, subject)
         row.update(spikes=f"{session}.nwb", events=f"{session}.nwb", time_unit="s")
     else:  # pragma: no cover
         raise ValueError(fmt)

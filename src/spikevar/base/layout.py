@@ -1,0 +1,103 @@
+"""The results layout: every path a rule writes, in one place.
+
+The ``.smk`` files build their ``output:`` and ``log:`` paths from :class:`ResultsLayout` (with
+``"{session}"`` as the wildcard), and the package reads the same layout when it looks for a
+session's outputs or a job's failure record. Names of tables and figures are listed here once.
+
+::
+
+    {results}/sessions/{session}/{table}.parquet      normalised inputs and per-session tables
+    {results}/cohort/{table}.parquet (+ .csv)         cohort tables
+    {results}/figures/sessions/{session}_recovery.{png,svg}
+    {results}/figures/{figure}.{png,svg}              cohort figures
+    {results}/handoff/...  {results}/datapackage.json hand-off
+    {results}/logs/sessions/{session}/{step}.log      one log per job, and beside it
+    {results}/logs/sessions/{session}/{step}.failure.json   the failure record of a failed job
+    {results}/logs/cohort/{step}.log (+ .failure.json)
+    {results}/benchmarks/...                          Snakemake's time and memory per job
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+#: session ids: the sheet refuses others, and the workflow's ``session`` wildcard is constrained
+SESSION_ID_PATTERN = r"[A-Za-z0-9][A-Za-z0-9_.-]*"
+
+#: normalised inputs written by ingestion
+NORMALISED_TABLES = ("spikes", "events")
+#: per-session tables that are concatenated into cohort tables
+SESSION_TABLES = ("units", "count_fano", "fano_timecourse", "recovery")
+#: cohort statistics tables
+STATISTICS_TABLES = ("population_fano", "group_summary", "group_differences")
+#: cohort figures (each written as PNG and SVG)
+COHORT_FIGURES = ("population_fano", "unit_metrics", "fano_by_window", "tau_vs_cv", "quality")
+FIGURE_FORMATS = ("png", "svg")
+
+#: per-session steps in pipeline order: (rule, step name used for its log, first output)
+SESSION_STEPS = (
+    ("ingest_session", "ingest", "spikes"),
+    ("session_metrics", "metrics", "units"),
+    ("session_recovery", "recovery", "recovery"),
+    ("session_recovery_figure", "recovery_figure", None),
+)
+FAILURE_SUFFIX = ".failure.json"
+
+
+@dataclass(frozen=True)
+class ResultsLayout:
+    """Paths under one results folder. Pass ``"{session}"`` to get a wildcard pattern."""
+
+    root: str
+
+    def __post_init__(self):
+        object.__setattr__(self, "root", str(self.root).rstrip("/") or ".")
+
+    # per session
+    def session_table(self, session: str, table: str) -> str:
+        return f"{self.root}/sessions/{session}/{table}.parquet"
+
+    def recovery_figure(self, session: str, fmt: str = "png") -> str:
+        return f"{self.root}/figures/sessions/{session}_recovery.{fmt}"
+
+    def session_log(self, session: str, step: str) -> str:
+        return f"{self.root}/logs/sessions/{session}/{step}.log"
+
+    def session_benchmark(self, session: str, rule: str) -> str:
+        return f"{self.root}/benchmarks/sessions/{session}/{rule}.tsv"
+
+    # cohort
+    def cohort_table(self, table: str, fmt: str = "parquet") -> str:
+        return f"{self.root}/cohort/{table}.{fmt}"
+
+    def cohort_figure(self, figure: str, fmt: str = "png") -> str:
+        return f"{self.root}/figures/{figure}.{fmt}"
+
+    def cohort_log(self, step: str) -> str:
+        return f"{self.root}/logs/cohort/{step}.log"
+
+    def cohort_benchmark(self, rule: str) -> str:
+        return f"{self.root}/benchmarks/cohort/{rule}.tsv"
+
+    def handoff_file(self, name: str) -> str:
+        return f"{self.root}/handoff/{name}"
+
+    def datapackage(self) -> str:
+        return f"{self.root}/datapackage.json"
+
+    def partial_cohort(self) -> str:
+        return f"{self.root}/cohort_partial"
+
+    # the log pair of one job: the log itself and the failure record beside it
+    def session_logs(self, session: str, step: str) -> dict[str, str]:
+        log = self.session_log(session, step)
+        return {"log": log, "failure": failure_record_path(log)}
+
+    def cohort_logs(self, step: str) -> dict[str, str]:
+        log = self.cohort_log(step)
+        return {"log": log, "failure": failure_record_path(log)}
+
+
+def failure_record_path(log_path: str) -> str:
+    """Where the job wrapper writes the failure record of the job logging to ``log_path``."""
+    return str(log_path).removesuffix(".log") + FAILURE_SUFFIX

@@ -1,0 +1,51 @@
+"""Which settings object reads which config section, and the strict check of a whole config.
+
+Each stage keeps its settings in a light ``settings`` module (dataclasses only, no science imports),
+so this check costs the dry run nothing. Called by the Snakefile before anything else, so a typo in
+any key stops the run at once with the closest valid key named (the JSON Schema check that follows
+would only say "additional properties are not allowed").
+"""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+
+from spikevar.base.errors import SpikevarInputError
+from spikevar.base.settings import settings_from, unknown_key_error
+from spikevar.cohort.settings import BootstrapSettings, CohortSettings
+from spikevar.figures.settings import FigureSettings
+from spikevar.inputs.settings import ColumnNames
+from spikevar.metrics.settings import MetricSettings, SlidingWindows
+from spikevar.population.settings import MeanMatchSettings
+from spikevar.recovery.settings import RecoverySettings
+
+#: config section -> the one settings dataclass that reads it
+SECTIONS = {
+    "columns": ColumnNames,
+    "metrics": MetricSettings,
+    "timecourse": SlidingWindows,
+    "recovery": RecoverySettings,
+    "figures": FigureSettings,
+    "cohort": CohortSettings,
+    "population": MeanMatchSettings,
+    "bootstrap": BootstrapSettings,
+}
+#: top-level keys that are single values, not sections
+TOP_LEVEL = ("sessions", "results", "time_unit", "sampling_rate_hz", "seed")
+
+
+def check_config(config: Mapping) -> dict:
+    """Refuse unknown keys anywhere in ``config``; return the settings object of each section."""
+    valid = (*TOP_LEVEL, *SECTIONS)
+    for key in config:
+        if key not in valid:
+            raise unknown_key_error(key, valid, section=None)
+    built = {}
+    for name, cls in SECTIONS.items():
+        section = config.get(name) or {}
+        if not isinstance(section, Mapping):
+            raise SpikevarInputError(f"The config section '{name}' is not a mapping of keys.",
+                                     fix=f"write '{name}:' followed by indented 'key: value' "
+                                         "lines.", where="config")
+        built[name] = settings_from(cls, section, section=name)
+    return built
