@@ -34,3 +34,19 @@ def test_fitted_parameters_a_model_does_not_have_are_ignored():
                                                   dead_time_s=np.nan)).all()
     with pytest.raises(ValueError, match="unknown model"):
         hm.model_cdf("gamma", s, rate_hz=5.0)
+
+
+def test_fit_likelihood_is_the_sum_of_log_model_densities():
+    # the fit's profile likelihood (rate profiled out: r = n / sum G) must be the log density
+    # of the same closed form, so fits, goodness of fit and figures describe one model
+    from spikevar.recovery.fit import Intervals, exp_recovery_profile_loglik
+
+    rng = np.random.default_rng(4)
+    isi = np.sort(0.002 + rng.exponential(0.03, 400))
+    iv = Intervals.build(isi)
+    tau, d = 0.006, 0.0015
+    u = isi - d
+    rate = len(isi) / np.sum(u - tau * -np.expm1(-u / tau))
+    direct = np.log(hm.model_pdf("exp_recovery", isi, rate_hz=rate, tau_s=tau,
+                                 dead_time_s=d)).sum()
+    assert exp_recovery_profile_loglik(iv, tau, d) == pytest.approx(direct, rel=1e-10)

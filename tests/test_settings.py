@@ -72,3 +72,13 @@ def test_lists_become_tuples_and_settings_are_frozen():
     assert settings.counting_windows_s == (0.1, 1.0)
     with pytest.raises(dataclasses.FrozenInstanceError):
         settings.lvr_refractory_s = 1.0
+
+
+def test_session_id_pattern_is_the_layouts():
+    # the sheet check, the workflow wildcard and the sheet schema use one pattern
+    from spikevar.base.layout import SESSION_ID_PATTERN
+
+    sheet_schema = yaml.safe_load(
+        (REPO / "workflow" / "schemas" / "sessions.schema.yaml").read_text())
+    assert sheet_schema["properties"]["session"]["pattern"] == f"^{SESSION_ID_PATTERN}$"
+    assert "SESSION_ID_PATTERN" in (REPO / "workflow" / "rules" / "common.smk").read_text()

@@ -10,9 +10,10 @@ from pathlib import Path
 import pandas as pd
 
 from spikevar.base.errors import SpikevarInputError
+from spikevar.base.layout import SESSION_ID_PATTERN
 from spikevar.inputs import time_units
 
-SESSION_ID = re.compile(r"^[A-Za-z0-9][A-Za-z0-9_.-]*$")
+SESSION_ID = re.compile(f"^{SESSION_ID_PATTERN}$")
 REQUIRED = ("session", "subject", "spikes")
 #: Sheet columns that change how a session is read (the others are metadata for cohort tables).
 INGEST_COLUMNS = ("spikes", "events", "time_unit", "sampling_rate_hz")
