@@ -83,7 +83,11 @@ TABLES: dict[str, dict[str, tuple[str, str, str]]] = {
         "ks_pvalue": ("KS p-value (conservative: parameters fitted on the same data)", "", ""),
         "ks_band_95": ("95% KS band 1.36 / sqrt(n)", "", BROWN),
         "n_intervals": ("uncensored intervals fitted", "count", ""),
-        "converged": ("the fit converged inside its bounds", "", ""),
+        "converged": ("the optimiser stopped at the optimum (success, or a projected gradient "
+                      "below 1e-3)", "", "Byrd et al. 1995, SIAM J Sci Comput 16:1190"),
+        "tau_at_bound": ("'lower' (10 us, the dead-time limit) or 'upper' (20 mean intervals: "
+                         "slower than the data resolve) when tau ended at a bound of its range, "
+                         "else ''; such a tau is a limit, not a measurement", "", ""),
         "preferred": ("lowest AIC among converged stationary models of the unit", "", ""),
         "fit_note": ("remarks: bounds reached, too few intervals, optimiser message", "", ""),
     },
@@ -116,6 +120,8 @@ TABLES: dict[str, dict[str, tuple[str, str, str]]] = {
                          SARAV),
         "median_ci_hi": ("95% hierarchical-bootstrap interval of the median", "metric's unit",
                          SARAV),
+        "n_tau_at_bound": ("units of the group whose tau ended at a bound (left out of the tau "
+                           "summary; 0 for other metrics)", "count", ""),
         "summary_reason": ("caveat or why values are NaN", "", ""),
     },
     "group_differences": {
@@ -130,6 +136,15 @@ TABLES: dict[str, dict[str, tuple[str, str, str]]] = {
         "diff_median_ci_lo": ("95% hierarchical-bootstrap interval", "metric's unit", SARAV),
         "diff_median_ci_hi": ("95% hierarchical-bootstrap interval", "metric's unit", SARAV),
         "p_median": ("two-sided bootstrap p-value of diff_median", "", SARAV),
+        "p_permutation": ("two-sided permutation p-value of diff_mean, whole subjects "
+                          "permuted between the two groups (exact enumeration up to 20,000 "
+                          "arrangements, else 20,000 random ones)", "",
+                          "Fisher 1935; Good 2005, Permutation, Parametric and Bootstrap Tests"),
+        "p_permutation_min": ("smallest p_permutation the subjects allow (2 / C(n_a + n_b, n_a) "
+                              "for equal groups); with 3 animals per group it is 0.1", "", ""),
+        "permutation_exact": ("every arrangement of subjects was enumerated", "", ""),
+        "few_subjects": ("a group has fewer than 5 subjects: bootstrap intervals and p_mean / "
+                         "p_median are too narrow / too small there; use p_permutation", "", ""),
         "difference_reason": ("why values are NaN ('' if defined)", "", ""),
     },
     "failed_sessions": {

@@ -141,6 +141,8 @@ class Fit:
     log_likelihood: float = np.nan
     converged: bool = False
     note: str = ""
+    #: "lower" or "upper" when tau ended at a bound of its search range, else ""
+    tau_at_bound: str = ""
 
     @property
     def aic(self) -> float:
@@ -172,17 +174,37 @@ def _tau_bounds(iv: Intervals) -> tuple[float, float]:
     return 1e-5, max(20.0 * iv.mean_isi, 1e-3)
 
 
+#: largest projected gradient (log-likelihood units per unit of log tau or d / min interval) at
+#: which an optimiser stop still counts as the optimum
+PROJECTED_GRADIENT_TOL = 1e-3
+
+
+def projected_gradient(x: np.ndarray, grad: np.ndarray, bounds) -> np.ndarray:
+    """The gradient with components that point out of the box at an active bound set to 0."""
+    pg = np.array(grad, dtype=float)
+    for i, (lo, hi) in enumerate(bounds):
+        if x[i] <= lo + 1e-9 and pg[i] > 0:  # minimising: a positive gradient pushes to lo
+            pg[i] = 0.0
+        elif x[i] >= hi - 1e-9 and pg[i] < 0:
+            pg[i] = 0.0
+    return pg
+
+
 def fit_exp_recovery(iv: Intervals, *, with_interval: bool = True) -> Fit:
     """Joint MLE of ``(r_inf, tau, d)`` with L-BFGS-B on ``(log tau, d / min_isi)``.
 
     Notes
     -----
     Starts from the best of a small grid of ``tau`` (fractions of the mean interval) and two
-    dead times. ``converged`` is False if the optimiser fails or ``tau`` ends at its upper
-    bound (recovery slower than the data can resolve). ``tau`` at its lower bound (10 us) is
-    the dead-time limit and is reported with a note. The 95% interval for ``tau`` is the
-    profile-likelihood interval (``d`` re-optimised at each ``tau``); an end that reaches a
-    bound is reported as 0 or inf.
+    dead times. ``converged`` is True when the optimiser reports success or when it stopped
+    (L-BFGS-B's "abnormal termination in line search" happens at the optimum, where rounding
+    stops the line search) with a projected gradient below ``PROJECTED_GRADIENT_TOL``.
+    ``tau_at_bound`` is ``"lower"`` (10 us: the dead-time limit) or ``"upper"`` (20 mean
+    intervals: recovery slower than the data resolve); both are converged fits whose tau is a
+    bound, not a measurement, and group summaries leave both out alike and count them. The 95%
+    interval for ``tau`` is the profile-likelihood interval (``d`` re-optimised at each
+    ``tau``); an end that reaches a bound is reported as 0 or inf. No interval is given at the
+    upper bound.
     """
     if not iv.min_isi > 0:
         return Fit("exp_recovery", note="zero-length interval (duplicate spike times): the "
@@ -199,14 +221,18 @@ def fit_exp_recovery(iv: Intervals, *, with_interval: bool = True) -> Fit:
     tau, d = float(np.exp(res.x[0])), float(res.x[1] * iv.min_isi)
     ll = -float(res.fun)
     D = _recovery_terms(iv, tau, d)[0]
-    note, converged = "", bool(res.success)
+    pg = projected_gradient(res.x, res.jac, bounds)
+    converged = bool(res.success) or bool(np.max(np.abs(pg)) < PROJECTED_GRADIENT_TOL)
+    note, at_bound = "", ""
     if res.x[0] >= np.log(hi) - 1e-6:
-        converged, note = False, "tau at upper bound: recovery slower than the data resolve"
+        at_bound, note = "upper", "tau at upper bound: recovery slower than the data resolve"
     elif res.x[0] <= np.log(lo) + 1e-6:
-        note = "tau at lower bound: dead-time limit"
+        at_bound, note = "lower", "tau at lower bound: dead-time limit"
+    if not converged:
+        note = f"optimiser: {res.message}; projected gradient {np.max(np.abs(pg)):.2g}"
     fit = Fit("exp_recovery", rate_hz=iv.n / D, tau_s=tau, dead_time_s=d, log_likelihood=ll,
-              converged=converged, note=note if res.success else f"optimiser: {res.message}")
-    if with_interval and converged:
+              converged=converged, note=note, tau_at_bound=at_bound)
+    if with_interval and converged and at_bound != "upper":
         fit.tau_ci = profile_tau_interval(iv, tau_hat=tau, loglik_hat=ll, d_hat=d)
     return fit
 

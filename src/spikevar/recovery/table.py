@@ -24,7 +24,7 @@ log = logging.getLogger(__name__)
 
 COLUMNS = ["unit", "model", "fit_kind", "asymptotic_rate_hz", "recovery_tau_s", "dead_time_s",
            "tau_ci_lo", "tau_ci_hi", "log_likelihood", "aic", "ks_stat", "ks_pvalue",
-           "ks_band_95", "n_intervals", "converged", "preferred", "fit_note"]
+           "ks_band_95", "n_intervals", "converged", "tau_at_bound", "preferred", "fit_note"]
 
 
 def _row(unit: str, fit: Fit, iv: Intervals | None, kind: str) -> dict:
@@ -39,7 +39,8 @@ def _row(unit: str, fit: Fit, iv: Intervals | None, kind: str) -> dict:
             "tau_ci_hi": fit.tau_ci[1], "log_likelihood": fit.log_likelihood,
             "aic": fit.aic, "ks_stat": ks, "ks_pvalue": p,
             "ks_band_95": 1.36 / np.sqrt(n) if n else np.nan, "n_intervals": n,
-            "converged": bool(fit.converged), "preferred": False, "fit_note": fit.note}
+            "converged": bool(fit.converged), "tau_at_bound": fit.tau_at_bound,
+            "preferred": False, "fit_note": fit.note}
 
 
 def unit_recovery_rows(unit: str, times: np.ndarray, *, span_s: tuple[float, float],
