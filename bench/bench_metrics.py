@@ -63,7 +63,7 @@ def main():
     tracemalloc.start()
     t0 = time.perf_counter()
     tables = compute_tables(spikes, events, settings=settings, windows=windows,
-                            duration_s=duration)
+                            span=(0.0, duration))
     elapsed = time.perf_counter() - t0
     _, peak = tracemalloc.get_traced_memory()
     tracemalloc.stop()

@@ -20,4 +20,5 @@ with rule_job(snakemake, step="ingest") as sm:  # noqa: F821
         sampling_rate_hz=settings["sampling_rate_hz"],
         spikes_out=sm.output.spikes,
         events_out=sm.output.events,
+        span=settings["span"],
     )

@@ -18,5 +18,5 @@ with rule_job(snakemake, step="metrics") as sm:  # noqa: F821
         outputs={name: sm.output[name] for name in ("units", "count_fano", "fano_timecourse")},
         settings=settings_from(MetricSettings, sm.params.metrics, section="metrics"),
         windows=settings_from(SlidingWindows, sm.params.timecourse, section="timecourse"),
-        duration_s=sm.params.duration_s,
+        span=sm.params.span,
     )

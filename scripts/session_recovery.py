@@ -16,5 +16,5 @@ with rule_job(snakemake, step="recovery") as sm:  # noqa: F821
         spikes_path=sm.input.spikes,
         output=sm.output[0],
         settings=settings_from(RecoverySettings, sm.params.recovery, section="recovery"),
-        duration_s=sm.params.duration_s,
+        span=sm.params.span,
     )

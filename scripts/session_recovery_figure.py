@@ -18,5 +18,4 @@ with rule_job(snakemake, step="recovery_figure") as sm:  # noqa: F821
         output=sm.output.png,
         max_units=settings_from(FigureSettings, sm.params.figures,
                                 section="figures").max_units_per_session,
-        duration_s=sm.params.duration_s,
     )

@@ -261,3 +261,34 @@ def test_unit_column_without_a_text_form_names_the_column(tmp_path):
         run(tmp_path, path)
     message = str(err.value)
     assert "column 'unit'" in message and "lists.parquet" in message and "s1" in message
+
+
+def test_spike_past_the_declared_span_is_refused(tmp_path):
+    path = tmp_path / "late.csv"
+    pd.DataFrame({"unit": ["a", "a", "b"], "time": [1000.5, 1301.0, 1100.0]}).to_csv(path,
+                                                                                   index=False)
+    with pytest.raises(SpikevarInputError) as err:
+        run(tmp_path, path, span=(1000.0, 1300.0))
+    message = str(err.value)
+    assert "outside the declared recording span [1000, 1300]" in message
+    assert "2 (line 3)" in message and "late.csv" in message and "s1" in message
+    assert not (tmp_path / "out" / "spikes.parquet").exists()
+
+
+def test_event_outside_the_declared_span_is_refused(tmp_path):
+    spikes, events = tmp_path / "s.csv", tmp_path / "e.csv"
+    SPIKES.to_csv(spikes, index=False)
+    pd.DataFrame({"time": [0.2, 5.0], "condition": ["dim", "dim"]}).to_csv(events, index=False)
+    with pytest.raises(SpikevarInputError, match="event.*outside the declared"):
+        run(tmp_path, spikes, events, span=(0.0, 2.0))
+    # without a declared span the same event is only a warning
+    _, ev, _ = run(tmp_path, spikes, events)
+    assert len(ev) == 2
+
+
+def test_declared_span_is_recorded(tmp_path):
+    path = tmp_path / "s.csv"
+    SPIKES.to_csv(path, index=False)
+    _, _, out = run(tmp_path, path, span=(0.0, 10.0))
+    meta = read_metadata(out / "spikes.parquet")
+    assert meta["span_s"] == [0.0, 10.0] and meta["span_declared"] is True

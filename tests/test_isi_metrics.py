@@ -143,3 +143,45 @@ def test_vectorised_agrees_with_loop(rows):
             else:
                 assert got == pytest.approx(ref[theirs], rel=1e-9, abs=1e-12)
         assert table.loc[unit, "n_refractory_violations"] == ref["violations"]
+
+
+@pytest.mark.parametrize("share", [0.05, 0.15, 0.3])
+def test_poisson_contaminant_estimate_recovers_the_mixed_share(share):
+    # Simulation with known truth: a refractory unit (dead time 3 ms > threshold 1.5 ms, so it
+    # makes no violation itself) plus Poisson spikes that make up `share` of all spikes. The
+    # Poisson-contaminant estimate (Llobet et al. 2022, formula recalled from memory) must find
+    # the share; Hill et al. 2011 assume one refractory contaminant instead.
+    rng = np.random.default_rng(int(share * 100))
+    duration, rate = 10_000.0, 12.0
+    unit = simulate.renewal_train(simulate.DeadTimeISI(rate, 0.003), duration_s=duration,
+                                  rng=rng)
+    extra_rate = rate * share / (1 - share)
+    noise = simulate.poisson_train(rate_hz=extra_rate, duration_s=duration, rng=rng)
+    times = np.concatenate([unit, noise])
+    spikes = SpikeArrays.from_arrays(np.full(len(times), "u"), times)
+    row = unit_isi_table(spikes, duration_s=duration).iloc[0]
+    assert row["contamination_poisson_flag"] == ""
+    assert row["contamination_poisson"] == pytest.approx(share, rel=0.12)
+    if share == 0.3:  # the one-refractory-contaminant model reads Poisson noise as more
+        assert not row["contamination_hill"] <= 0.36  # too large, or no real solution
+
+
+@pytest.mark.parametrize("rate,defined", [(2.0, False), (60.0, True)])
+def test_fano_to_cv2_needs_many_intervals_per_window(rate, defined):
+    # gamma k = 4: FF(T) -> CV^2 = 1/4 only for windows of many intervals (Cox 1962). At 2 Hz the
+    # longest window (2 s) holds 4 mean intervals: the ratio read 1.15 there and is now withheld.
+    from spikevar.metrics.session import compute_tables
+    from spikevar.metrics.settings import SlidingWindows
+
+    rng = np.random.default_rng(9)
+    t = simulate.renewal_train(simulate.GammaISI(rate, 4.0), duration_s=4000.0, rng=rng)
+    spikes = SpikeArrays.from_arrays(np.full(len(t), "u"), t)
+    events = __import__("pandas").DataFrame({"time_s": [], "condition": []})
+    units = compute_tables(spikes, events, settings=MetricSettings(), windows=SlidingWindows(),
+                           span=(0.0, 4000.0))["units"].iloc[0]
+    if defined:
+        assert units["fano_to_cv2"] == pytest.approx(1.0, abs=0.15)
+        assert units["fano_to_cv2_reason"] == ""
+    else:
+        assert np.isnan(units["fano_to_cv2"])
+        assert "20 mean intervals" in units["fano_to_cv2_reason"]

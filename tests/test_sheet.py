@@ -96,3 +96,24 @@ def test_bad_time_unit_and_rate(tmp_path):
 def test_missing_sheet(tmp_path):
     with pytest.raises(SpikevarInputError, match="does not exist"):
         load_sheet(tmp_path / "none.tsv")
+
+
+def test_recording_span_columns(tmp_path):
+    path = write_sheet(tmp_path, [
+        {"session": "a1", "subject": "m", "spikes": "a.csv", "start_s": "1000",
+         "duration_s": "300"},
+        {"session": "b1", "subject": "m", "spikes": "b.csv", "start_s": "", "duration_s": "60"},
+        {"session": "c1", "subject": "m", "spikes": "c.csv", "start_s": "", "duration_s": ""}])
+    sheet = load_sheet(path)
+    assert sheet.loc["a1", "start_s"] == 1000.0 and sheet.loc["a1", "duration_s"] == 300.0
+    assert sheet.loc["b1", "start_s"] == 0.0  # start defaults to 0 when the duration is given
+    assert pd.isna(sheet.loc["c1", "start_s"]) and pd.isna(sheet.loc["c1", "duration_s"])
+    assert "start_s" not in metadata_columns(sheet)
+
+
+def test_start_without_duration_is_refused(tmp_path):
+    path = write_sheet(tmp_path, [{"session": "a1", "subject": "m", "spikes": "a.csv",
+                                   "start_s": "12"}])
+    with pytest.raises(SpikevarInputError, match="start_s but no duration_s") as err:
+        load_sheet(path)
+    assert "row 1" in str(err.value)

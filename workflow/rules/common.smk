@@ -15,7 +15,7 @@ from spikevar.pipeline.rule_inputs import (
     cohort_metadata,
     ingest_inputs,
     ingest_settings,
-    recording_duration,
+    declared_span,
     sheet_records,
 )
 

@@ -12,7 +12,7 @@ rule session_metrics:
     params:
         metrics=config["metrics"],
         timecourse=config["timecourse"],
-        duration_s=lambda w: recording_duration(SHEET, w.session),
+        span=lambda w: declared_span(SHEET, w.session),
         code=code_fingerprint("metrics.session", "base.settings"),
     log:
         **LAYOUT.session_logs("{session}", "metrics"),

@@ -8,7 +8,7 @@ rule session_recovery:
         LAYOUT.session_table("{session}", "recovery"),
     params:
         recovery=config["recovery"],
-        duration_s=lambda w: recording_duration(SHEET, w.session),
+        span=lambda w: declared_span(SHEET, w.session),
         code=code_fingerprint("recovery.table", "base.settings"),
     log:
         **LAYOUT.session_logs("{session}", "recovery"),
@@ -39,7 +39,6 @@ rule session_recovery_figure:
         svg=LAYOUT.recovery_figure("{session}", "svg"),
     params:
         figures=config["figures"],
-        duration_s=lambda w: recording_duration(SHEET, w.session),
         code=code_fingerprint("figures.recovery", "figures.settings", "base.settings"),
     log:
         **LAYOUT.session_logs("{session}", "recovery_figure"),

@@ -82,10 +82,16 @@ def load_spikes(path: str | Path, *, session: str | None = None) -> SpikeArrays:
     return SpikeArrays(labels=labels, codes=codes, times=np.asarray(times, dtype=np.float64))
 
 
-def recording_span(spikes: SpikeArrays, duration_s: float | None) -> tuple[float, float]:
-    """``(0, duration_s)`` when the duration is declared, else first to last spike."""
-    if duration_s is not None:
-        return 0.0, float(duration_s)
+def recording_span(spikes: SpikeArrays, declared: tuple[float, float] | None
+                   ) -> tuple[float, float]:
+    """The session's one span: the declared ``(start_s, start_s + duration_s)`` from the
+    sheet, else first to last spike of the session (all units).
+
+    Every rate, count window, censored interval and event-window check uses this span.
+    Ingestion has already refused spikes and events outside a declared span.
+    """
+    if declared is not None:
+        return float(declared[0]), float(declared[1])
     if len(spikes.times) == 0:
         return 0.0, 0.0
     return float(spikes.times.min()), float(spikes.times.max())

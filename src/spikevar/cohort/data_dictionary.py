@@ -35,12 +35,21 @@ TABLES: dict[str, dict[str, tuple[str, str, str]]] = {
         "refractory_violation_fraction": ("fraction of ISIs below the refractory threshold", "",
                                           "config metrics.refractory_threshold_s"),
         "n_refractory_violations": ("ISIs below the refractory threshold", "count", ""),
-        "contamination_hill": ("estimated fraction of spikes from other neurons", "",
+        "contamination_hill": ("estimated fraction of spikes from other neurons, assuming ONE "
+                               "contaminating neuron that is itself refractory", "",
                                "Hill, Mehta & Kleinfeld 2011, J Neurosci 31:8699"),
+        "contamination_poisson": ("estimated fraction of spikes from other neurons, assuming "
+                                  "the contaminating spikes are a Poisson process (many small "
+                                  "sources)", "", "Llobet et al. 2022, bioRxiv (recalled from "
+                                  "memory; checked by simulation)"),
+        "contamination_poisson_flag": ("why contamination_poisson is NaN ('' if defined)", "",
+                                       ""),
         "contamination_flag": ("why contamination_hill is NaN ('' if defined)", "", ""),
         "fano_longest_window_s": ("longest counting window", "s", ""),
         "fano_to_cv2": ("count Fano factor at the longest window / isi_cv^2 (about 1 for a "
-                        "stationary renewal train)", "", "Cox 1962"),
+                        "stationary renewal train); NaN unless the window holds at least 20 "
+                        "mean intervals", "", "Cox 1962"),
+        "fano_to_cv2_reason": ("why fano_to_cv2 is NaN ('' if defined)", "", ""),
         "isi_reason": ("why ISI measures are NaN ('' if defined)", "", ""),
     },
     "count_fano": {
@@ -80,15 +89,24 @@ TABLES: dict[str, dict[str, tuple[str, str, str]]] = {
         "log_likelihood": ("maximised log-likelihood", "", ""),
         "aic": ("Akaike information criterion 2k - 2 log L", "", ""),
         "ks_stat": ("KS distance of time-rescaled intervals from uniform", "", BROWN),
-        "ks_pvalue": ("KS p-value (conservative: parameters fitted on the same data)", "", ""),
-        "ks_band_95": ("95% KS band 1.36 / sqrt(n)", "", BROWN),
+        "ks_pvalue": ("KS p-value with the null for parameters fitted on the same intervals "
+                      "(simulated table; size 4-5% measured)", "", "Lilliefors 1969, JASA "
+                      "62:399; table from bench/calibrate_ks_null.py"),
+        "ks_pvalue_known_params": ("KS p-value as if the parameters were known (too large)",
+                                   "", "scipy kstwo"),
+        "ks_band_95": ("half-width of the 95% KS band for fitted parameters", "", BROWN),
+        "nested_lr_pvalue": ("likelihood-ratio p-value of this model against the next simpler "
+                             "one (dead_time vs poisson: exact Beta null of the threshold "
+                             "gain; exp_recovery vs dead_time: 1/2 chi2_0 + 1/2 chi2_1)", "",
+                             "Smith 1985, Biometrika 72:67; Self & Liang 1987, JASA 82:605"),
         "n_intervals": ("uncensored intervals fitted", "count", ""),
         "converged": ("the optimiser stopped at the optimum (success, or a projected gradient "
                       "below 1e-3)", "", "Byrd et al. 1995, SIAM J Sci Comput 16:1190"),
         "tau_at_bound": ("'lower' (10 us, the dead-time limit) or 'upper' (20 mean intervals: "
                          "slower than the data resolve) when tau ended at a bound of its range, "
                          "else ''; such a tau is a limit, not a measurement", "", ""),
-        "preferred": ("lowest AIC among converged stationary models of the unit", "", ""),
+        "preferred": ("model chosen by nested likelihood-ratio tests at level 0.05 (simplest "
+                      "model no richer one beats)", "", ""),
         "fit_note": ("remarks: bounds reached, too few intervals, optimiser message", "", ""),
     },
     "population_fano": {

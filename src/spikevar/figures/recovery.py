@@ -16,8 +16,8 @@ def _model_args(row: pd.Series) -> dict:
             "dead_time_s": row["dead_time_s"]}
 
 
-def draw_session_recovery(*, session: str, spikes_path, recovery_path, output, max_units: int,
-                          duration_s: float | None = None) -> None:
+def draw_session_recovery(*, session: str, spikes_path, recovery_path, output,
+                          max_units: int) -> None:
     """Two panels per unit (up to ``max_units``): log-time ISI density and KS plot."""
     import matplotlib.pyplot as plt
 

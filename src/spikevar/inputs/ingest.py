@@ -225,13 +225,16 @@ def normalise_events(
     sampling_rate_hz: float | None,
     span_s: tuple[float, float],
     text_source: bool = True,
+    span_declared: bool = False,
 ) -> tuple[pa.Table, IngestReport]:
     """Validate a raw event table: ``time_s`` (seconds), ``condition`` (string), extras kept.
 
     Notes
     -----
-    Rows are sorted by time. Events outside ``span_s`` (the recording) are kept but reported as a
-    warning: their windows will be dropped later if they run outside the recording.
+    Rows are sorted by time. With a declared span (sheet ``start_s``/``duration_s``) an event
+    outside it is an input error naming the rows and the span. Without one, ``span_s`` is first
+    to last spike, and events outside it are kept with a warning: their windows are dropped
+    later where they leave the recording.
     """
     report = IngestReport(rows_read=table.num_rows)
     _require_columns(table, [columns.event_time, columns.event_condition],
@@ -255,6 +258,13 @@ def normalise_events(
     for c in extras:
         arrays[c] = table.column(c).take(pa.array(order))
     outside = (seconds < span_s[0]) | (seconds > span_s[1])
+    if outside.any() and span_declared:
+        raise SpikevarInputError(
+            f"{int(outside.sum())} event(s) lie outside the declared recording span "
+            f"[{span_s[0]:g}, {span_s[1]:g}] s, at row(s) {_row_list(outside, text=text_source)}.",
+            fix="check start_s and duration_s in the sessions sheet (seconds, on the spike "
+                "table's clock after unit conversion) or the event table's time unit.",
+            where=f"column {columns.event_time!r}")
     if outside.any():
         report.warnings.append(
             f"{int(outside.sum())} event(s) lie outside the recording span "
@@ -296,7 +306,8 @@ def _check_readable(path: Path, *, session: str) -> None:
                                  fix="check that the export finished and re-export it.")
 
 
-def _ingest_spikes(path: Path, *, session, columns, time_unit, sampling_rate_hz, hasher):
+def _ingest_spikes(path: Path, *, session, columns, time_unit, sampling_rate_hz, hasher,
+                   span=None):
     """Read and normalise the spike table; the source's sha256 is computed by ``hasher`` (a
     one-thread pool) while the rows are checked and written, and returned as a future."""
     _check_readable(path, session=session)
@@ -307,6 +318,9 @@ def _ingest_spikes(path: Path, *, session, columns, time_unit, sampling_rate_hz,
     declared = "s" if is_nwb else time_unit
     spikes, report = normalise_spikes(raw, columns=columns, time_unit=declared,
                                       sampling_rate_hz=sampling_rate_hz, text_source=is_text)
+    if span is not None:
+        _check_spikes_in_span(raw, report, columns=columns, time_unit=declared,
+                              sampling_rate_hz=sampling_rate_hz, span=span, text=is_text)
     if not report.was_sorted:
         log.info("session %s: spike rows were not sorted by unit and time; sorted them.", session)
     if report.duplicates_dropped:
@@ -317,17 +331,38 @@ def _ingest_spikes(path: Path, *, session, columns, time_unit, sampling_rate_hz,
             "sampling_rate_hz": sampling_rate_hz, "rows_read": report.rows_read,
             "rows_written": report.rows_written, "duplicates_dropped": report.duplicates_dropped,
             "input_was_sorted": report.was_sorted, "n_units": report.n_units,
-            "first_spike_s": report.first_s, "last_spike_s": report.last_s}
+            "first_spike_s": report.first_s, "last_spike_s": report.last_s,
+            "span_s": list(span) if span is not None else [report.first_s, report.last_s],
+            "span_declared": span is not None}
     return spikes, meta, digest
 
 
-def _ingest_events(path: Path, *, session, columns, time_unit, sampling_rate_hz, span):
+def _check_spikes_in_span(raw: pa.Table, report: IngestReport, *, columns, time_unit,
+                          sampling_rate_hz, span, text: bool) -> None:
+    """Refuse spikes outside a declared span, naming the raw rows (only read on failure)."""
+    if report.rows_written == 0 or (span[0] <= report.first_s and report.last_s <= span[1]):
+        return
+    seconds = time_units.to_seconds(
+        _numeric_times(raw.column(columns.time), name=columns.time, text=text),
+        time_unit=time_unit, sampling_rate_hz=sampling_rate_hz)
+    outside = (seconds < span[0]) | (seconds > span[1])
+    raise SpikevarInputError(
+        f"{int(outside.sum())} spike(s) lie outside the declared recording span "
+        f"[{span[0]:g}, {span[1]:g}] s (spikes run from {report.first_s:g} to "
+        f"{report.last_s:g} s), at row(s) {_row_list(outside, text=text)}.",
+        fix="check start_s and duration_s in the sessions sheet (seconds, on the spike table's "
+            "clock after unit conversion), or the declared time unit.",
+        where=f"column {columns.time!r}")
+
+
+def _ingest_events(path: Path, *, session, columns, time_unit, sampling_rate_hz, span,
+                   span_declared):
     _check_readable(path, session=session)
     raw, is_text, is_nwb = _read_raw(path, columns=columns, kind="events")
     declared = "s" if is_nwb else time_unit
     events, report = normalise_events(raw, columns=columns, time_unit=declared,
                                       sampling_rate_hz=sampling_rate_hz, span_s=span,
-                                      text_source=is_text)
+                                      text_source=is_text, span_declared=span_declared)
     for message in report.warnings:
         log.warning("session %s: %s", session, message)
     meta = {"kind": "events", "session": session, "source_path": str(path.resolve()),
@@ -347,11 +382,13 @@ def ingest_session(
     sampling_rate_hz: float | None,
     spikes_out: str | Path,
     events_out: str | Path,
+    span: tuple[float, float] | None = None,
 ) -> dict:
     """Read, validate and write one session's normalised ``spikes.parquet`` and ``events.parquet``.
 
     Nothing is written unless both tables are valid; each output is written atomically. Raw files
-    are only opened for reading.
+    are only opened for reading. ``span`` is the declared recording span from the sheet
+    (``[start_s, start_s + duration_s]``): a spike or event outside it is refused.
 
     Returns
     -------
@@ -362,18 +399,20 @@ def ingest_session(
         return _ingest_session(session=session, spikes_path=Path(spikes_path),
                                events_path=events_path, columns=columns, time_unit=time_unit,
                                sampling_rate_hz=sampling_rate_hz, spikes_out=spikes_out,
-                               events_out=events_out, hasher=hasher)
+                               events_out=events_out, hasher=hasher,
+                               span=None if span is None else tuple(map(float, span)))
 
 
 def _ingest_session(*, session, spikes_path, events_path, columns, time_unit, sampling_rate_hz,
-                    spikes_out, events_out, hasher) -> dict:
+                    spikes_out, events_out, hasher, span) -> dict:
     try:
         spikes, spikes_meta, digest = _ingest_spikes(
             spikes_path, session=session, columns=columns, time_unit=time_unit,
-            sampling_rate_hz=sampling_rate_hz, hasher=hasher)
+            sampling_rate_hz=sampling_rate_hz, hasher=hasher, span=span)
     except SpikevarInputError as err:
         raise err.with_context(session=session, path=str(spikes_path)) from None
-    span = (spikes_meta["first_spike_s"], spikes_meta["last_spike_s"])
+    declared = span is not None
+    span = tuple(spikes_meta["span_s"])
     if events_path is None or str(events_path) == "":
         events, events_meta = empty_events(), {"kind": "events", "session": session,
                                                "source_path": None, "rows_written": 0}
@@ -381,7 +420,8 @@ def _ingest_session(*, session, spikes_path, events_path, columns, time_unit, sa
         try:
             events, events_meta = _ingest_events(Path(events_path), session=session,
                                                  columns=columns, time_unit=time_unit,
-                                                 sampling_rate_hz=sampling_rate_hz, span=span)
+                                                 sampling_rate_hz=sampling_rate_hz, span=span,
+                                                 span_declared=declared)
         except SpikevarInputError as err:
             raise err.with_context(session=session, path=str(events_path)) from None
 

@@ -17,7 +17,7 @@ SESSION_ID = re.compile(f"^{SESSION_ID_PATTERN}$")
 REQUIRED = ("session", "subject", "spikes")
 #: Sheet columns that change how a session is read (the others are metadata for cohort tables).
 INGEST_COLUMNS = ("spikes", "events", "time_unit", "sampling_rate_hz")
-KNOWN = (*REQUIRED, "events", "group", "time_unit", "sampling_rate_hz", "duration_s")
+KNOWN = (*REQUIRED, "events", "group", "time_unit", "sampling_rate_hz", "start_s", "duration_s")
 
 
 def _read(path: Path) -> pd.DataFrame:
@@ -34,17 +34,18 @@ def _read(path: Path) -> pd.DataFrame:
     return frame.apply(lambda col: col.str.strip())
 
 
-def _number(value: str, *, row: int, column: str, path: Path) -> float:
+def _number(value: str, *, row: int, column: str, path: Path, allow_zero: bool = False) -> float:
     if value == "":
         return math.nan
     try:
         number = float(value)
     except ValueError:
         number = math.nan
-    if not math.isfinite(number) or number <= 0:
-        raise SpikevarInputError(f"'{value}' is not a positive number.", path=str(path),
+    if not math.isfinite(number) or number < 0 or (number == 0 and not allow_zero):
+        kind = "a number >= 0" if allow_zero else "a positive number"
+        raise SpikevarInputError(f"'{value}' is not {kind}.", path=str(path),
                                  where=f"row {row}, column {column}",
-                                 fix=f"write {column} as a positive number or leave it empty.")
+                                 fix=f"write {column} as {kind} or leave it empty.")
     return number
 
 
@@ -80,7 +81,7 @@ def load_sheet(path: str | os.PathLike, *, default_time_unit: str = "s",
         raise SpikevarInputError("The sessions sheet has no rows.", path=str(path),
                                  fix="add one row per session.")
     base = path.parent
-    for column in ("events", "group", "time_unit", "sampling_rate_hz", "duration_s"):
+    for column in ("events", "group", "time_unit", "sampling_rate_hz", "start_s", "duration_s"):
         if column not in frame.columns:
             frame[column] = ""
     problems_missing = []
@@ -145,9 +146,19 @@ def load_sheet(path: str | os.PathLike, *, default_time_unit: str = "s",
                 path=str(path), where=f"row {i}, column sampling_rate_hz",
                 fix="fill in sampling_rate_hz (Hz) for this row, or set it in the config.")
         _number(row.duration_s, row=i, column="duration_s", path=path)
+        _number(row.start_s, row=i, column="start_s", path=path, allow_zero=True)
+        if row.start_s != "" and row.duration_s == "":
+            raise SpikevarInputError(
+                f"Session '{row.session}' gives start_s but no duration_s.", path=str(path),
+                where=f"row {i}, column duration_s",
+                fix="give the recording length in duration_s (the span is start_s to start_s "
+                    "+ duration_s), or leave start_s empty to use the spikes' own span.")
         rates.append(rate)
     frame["sampling_rate_hz"] = rates
     frame["duration_s"] = [float(v) if v else math.nan for v in frame["duration_s"]]
+    frame["start_s"] = [float(v) if v else (0.0 if d else math.nan)
+                        for v, d in zip(frame["start_s"], frame["duration_s"].notna(),
+                                        strict=True)]
     return frame.set_index("session", drop=False)
 
 

@@ -86,6 +86,30 @@ def hill_contamination(*, n_violations, n_spikes, duration_s, refractory_s, cens
     return fraction, flag
 
 
+def poisson_contamination(*, n_violations, n_spikes, duration_s, refractory_s, censored_s=0.0):
+    """Contamination fraction when the contaminating spikes form a Poisson process.
+
+    ``c = 1 - sqrt(1 - r T / (N^2 (tR - tC)))`` (Llobet et al. 2022, bioRxiv; formula recalled
+    from memory and checked here by simulation with known truth). Hill et al. 2011 instead
+    assume one contaminating neuron that is itself refractory; with many small contaminating
+    sources (multi-unit background) the Poisson form is the apt one.
+
+    Returns
+    -------
+    fraction, flag : ndarray, ndarray of str
+        As :func:`hill_contamination`: ``"no real solution"`` when ``r T / (N^2 (tR - tC)) > 1``.
+    """
+    n_violations = np.asarray(n_violations, dtype=float)
+    n_spikes = np.asarray(n_spikes, dtype=float)
+    duration_s = np.broadcast_to(np.asarray(duration_s, dtype=float), n_spikes.shape)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        share = n_violations * duration_s / (n_spikes**2 * (refractory_s - censored_s))
+        fraction = 1.0 - np.sqrt(np.where(share <= 1, 1.0 - share, np.nan))
+    undefined = (n_spikes < 1) | ~(duration_s > 0)
+    flag = np.where(undefined, "undefined", np.where(~(share <= 1), "no real solution", ""))
+    return np.where(flag == "", fraction, np.nan), flag
+
+
 def unit_isi_table(
     spikes: SpikeArrays,
     *,
@@ -110,7 +134,7 @@ def unit_isi_table(
     DataFrame
         ``unit, n_spikes, duration_s, rate_hz, mean_isi_s, isi_cv, isi_cv2, isi_lv, isi_lvr,
         refractory_violation_fraction, n_refractory_violations, contamination_hill,
-        contamination_flag, isi_reason``.
+        contamination_flag, contamination_poisson, contamination_poisson_flag, isi_reason``.
 
     Notes
     -----
@@ -158,6 +182,9 @@ def unit_isi_table(
         rate = n_spikes / duration_s if duration_s > 0 else np.full(n_units, np.nan)
     no_rate = ~np.isfinite(rate)  # no span, or one too short for a finite rate
     rate[no_rate] = np.nan
+    poisson_c, poisson_flag = poisson_contamination(
+        n_violations=violations, n_spikes=n_spikes, duration_s=duration_s,
+        refractory_s=refractory_threshold_s, censored_s=censored_period_s)
     contamination, flag = hill_contamination(
         n_violations=violations, n_spikes=n_spikes, duration_s=duration_s,
         refractory_s=refractory_threshold_s, censored_s=censored_period_s)
@@ -176,5 +203,7 @@ def unit_isi_table(
         "n_refractory_violations": violations.astype(np.int64),
         "contamination_hill": contamination,
         "contamination_flag": flag.astype(object),
+        "contamination_poisson": poisson_c,
+        "contamination_poisson_flag": poisson_flag.astype(object),
         "isi_reason": reason.astype(object),
     })

@@ -39,13 +39,18 @@ def ingest_settings(sheet: pd.DataFrame, session: str, config: dict) -> dict:
         "time_unit": row["time_unit"],
         "sampling_rate_hz": None if math.isnan(rate) else rate,
         "columns": dict(config["columns"]),
+        "span": declared_span(sheet, session),
     }
 
 
-def recording_duration(sheet: pd.DataFrame, session: str) -> float | None:
-    """Declared recording length in seconds, or None to use the spike span."""
-    value = float(sheet.loc[session, "duration_s"])
-    return None if math.isnan(value) else value
+def declared_span(sheet: pd.DataFrame, session: str) -> list[float] | None:
+    """``[start_s, start_s + duration_s]`` from the sheet, or None to use the spike span."""
+    duration = float(sheet.loc[session, "duration_s"])
+    if math.isnan(duration):
+        return None
+    start = float(sheet.loc[session, "start_s"])
+    start = 0.0 if math.isnan(start) else start
+    return [start, start + duration]
 
 
 def cohort_metadata(sheet: pd.DataFrame) -> dict:

@@ -16,29 +16,36 @@ from spikevar.recovery.fit import (
     fit_all,
     fit_exp_recovery_modulated,
     ks_uniform,
+    nested_lr_pvalues,
+    preferred_model,
     rescaled_intervals,
 )
+from spikevar.recovery.ks_null import fitted_ks_band, fitted_ks_pvalue
 from spikevar.recovery.settings import RecoverySettings
 
 log = logging.getLogger(__name__)
 
 COLUMNS = ["unit", "model", "fit_kind", "asymptotic_rate_hz", "recovery_tau_s", "dead_time_s",
-           "tau_ci_lo", "tau_ci_hi", "log_likelihood", "aic", "ks_stat", "ks_pvalue",
-           "ks_band_95", "n_intervals", "converged", "tau_at_bound", "preferred", "fit_note"]
+           "tau_ci_lo", "tau_ci_hi", "log_likelihood", "aic", "nested_lr_pvalue", "ks_stat",
+           "ks_pvalue", "ks_pvalue_known_params", "ks_band_95", "n_intervals", "converged",
+           "tau_at_bound", "preferred", "fit_note"]
 
 
 def _row(unit: str, fit: Fit, iv: Intervals | None, kind: str) -> dict:
-    if iv is not None and np.isfinite(fit.log_likelihood):
-        ks, p = ks_uniform(rescaled_intervals(fit, iv))
-    else:
-        ks, p = np.nan, np.nan
     n = iv.n if iv is not None else 0
+    shape = fit.rate_hz * fit.tau_s  # r_inf tau: the exp_recovery null depends on it
+    if iv is not None and np.isfinite(fit.log_likelihood):
+        ks, p_known = ks_uniform(rescaled_intervals(fit, iv))
+        p = fitted_ks_pvalue(ks, n, fit.model, shape)
+    else:
+        ks, p, p_known = np.nan, np.nan, np.nan
     return {"unit": unit, "model": fit.model, "fit_kind": kind,
             "asymptotic_rate_hz": fit.rate_hz, "recovery_tau_s": fit.tau_s,
             "dead_time_s": fit.dead_time_s, "tau_ci_lo": fit.tau_ci[0],
             "tau_ci_hi": fit.tau_ci[1], "log_likelihood": fit.log_likelihood,
-            "aic": fit.aic, "ks_stat": ks, "ks_pvalue": p,
-            "ks_band_95": 1.36 / np.sqrt(n) if n else np.nan, "n_intervals": n,
+            "aic": fit.aic, "nested_lr_pvalue": np.nan, "ks_stat": ks, "ks_pvalue": p,
+            "ks_pvalue_known_params": p_known,
+            "ks_band_95": fitted_ks_band(n, fit.model, shape) if n else np.nan, "n_intervals": n,
             "converged": bool(fit.converged), "tau_at_bound": fit.tau_at_bound,
             "preferred": False, "fit_note": fit.note}
 
@@ -52,7 +59,9 @@ def unit_recovery_rows(unit: str, times: np.ndarray, *, span_s: tuple[float, flo
     The first interval (recording start to first spike) is dropped; the last (last spike to
     recording end) is right-censored. Fewer than ``min_intervals`` intervals, or all intervals
     equal, give rows of NaN with ``converged = False`` and the reason in ``fit_note``.
-    ``preferred`` marks the stationary model with the lowest AIC among converged fits.
+    ``preferred`` marks the stationary model chosen by nested likelihood-ratio tests
+    (:func:`spikevar.recovery.fit.preferred_model`); ``nested_lr_pvalue`` is each model's
+    p-value against the next simpler one. ``aic`` is kept as a column.
     """
     isi = np.diff(times)
     if len(isi) < settings.min_intervals or np.ptp(isi) == 0:
@@ -66,10 +75,12 @@ def unit_recovery_rows(unit: str, times: np.ndarray, *, span_s: tuple[float, flo
     iv = Intervals.build(isi, censored=span_s[1] - times[-1])
     fits = fit_all(iv, with_interval=settings.tau_interval)
     rows = [_row(unit, f, iv, "stationary") for f in fits]
-    converged = [r for r in rows if r["converged"]]
-    if converged:
-        best = min(converged, key=lambda r: r["aic"])
-        best["preferred"] = True
+    by_model = {f.model: f for f in fits}
+    p_values = nested_lr_pvalues(by_model, iv.n)
+    choice = preferred_model(by_model, iv.n)
+    for row in rows:
+        row["nested_lr_pvalue"] = p_values[row["model"]]
+        row["preferred"] = row["model"] == choice
     if settings.modulated_fit:
         fit, weighted = fit_exp_recovery_modulated(
             times, span_s=span_s, bandwidth_s=settings.slow_rate_bandwidth_s,
@@ -96,10 +107,10 @@ def recovery_table(spikes: SpikeArrays, *, span_s: tuple[float, float],
 
 
 def run_session_recovery(*, session: str, spikes_path, output: str, settings: RecoverySettings,
-                         duration_s: float | None = None) -> None:
+                         span: tuple[float, float] | None = None) -> None:
     """Fit every unit of a session and write ``recovery.parquet`` atomically."""
     spikes = load_spikes(spikes_path, session=session)
-    span = recording_span(spikes, duration_s)
+    span = recording_span(spikes, span)
     table = recovery_table(spikes, span_s=span, settings=settings)
     table.insert(0, "session", session)
     write_parquet_atomic(frame_to_arrow(table), output,
