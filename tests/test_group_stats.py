@@ -4,7 +4,8 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from spikevar.cohort.bootstrap import hierarchical_resample_indices, replicate_stats
+from spikevar.base.resampling import hierarchical_resample_indices
+from spikevar.cohort.bootstrap import replicate_stats
 from spikevar.cohort.group_stats import group_summary
 from spikevar.cohort.permutation import permutation_test_mean
 
@@ -70,13 +71,18 @@ def test_replicate_median_matches_numpy():
     np.testing.assert_allclose(median, np.median(values[rows], axis=1))
 
 
-def test_group_summary_flags_single_subject_and_empty_metric():
-    rng = np.random.default_rng(3)
-    frame = pd.concat([nested(rng, "A", n_subj=1), nested(rng, "B", n_subj=3)])
-    frame = frame.rename(columns={"value": "rate_hz"})
+def metric_frame(a, b):
+    """Two groups' nested values as every summarised metric."""
+    frame = pd.concat([a, b]).rename(columns={"value": "rate_hz"})
     for metric in ("isi_cv", "isi_cv2", "isi_lv", "isi_lvr", "fano_long", "recovery_tau_s",
                    "dead_time_s"):
         frame[metric] = frame["rate_hz"]
+    return frame
+
+
+def test_group_summary_flags_single_subject_and_empty_metric():
+    rng = np.random.default_rng(3)
+    frame = metric_frame(nested(rng, "A", n_subj=1), nested(rng, "B", n_subj=3))
     frame["dead_time_s"] = np.nan
     summary, diffs = group_summary(frame, n_boot=200, seed=1)
     rate = summary[summary["metric"] == "rate_hz"].set_index("group")
@@ -142,11 +148,7 @@ def test_permutation_detects_a_real_difference_with_eight_animals():
 
 def test_group_differences_carry_permutation_columns():
     rng = np.random.default_rng(8)
-    frame = pd.concat([nested(rng, "A", n_subj=3), nested(rng, "B", n_subj=6)])
-    frame = frame.rename(columns={"value": "rate_hz"})
-    for metric in ("isi_cv", "isi_cv2", "isi_lv", "isi_lvr", "fano_long", "recovery_tau_s",
-                   "dead_time_s"):
-        frame[metric] = frame["rate_hz"]
+    frame = metric_frame(nested(rng, "A", n_subj=3), nested(rng, "B", n_subj=6))
     frame["tau_at_bound"] = ""
     frame.loc[frame.index[:5], "tau_at_bound"] = "upper"
     _, diffs = group_summary(frame, n_boot=100, seed=2)

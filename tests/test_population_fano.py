@@ -76,8 +76,10 @@ def test_mean_matched_fano_shows_drop_at_event_onset():
     tc = fano_timecourse_table(spikes, pd.DataFrame({"time_s": events, "condition": "flash"}),
                                windows=SlidingWindows(-0.4, 0.4, 0.2, 0.1),
                                recording_s=(0.0, times.max()))
-    tc = tc.assign(session="s1", group="g")
-    table = population_fano_table(tc, settings=MeanMatchSettings(n_boot=20, n_bins=6),
+    # six animals of five units each: intervals resample animals
+    animal = "m" + (tc["unit"].str.extract(r"(\d+)$")[0].astype(int) % 6).astype(str)
+    tc = tc.assign(session=animal + "-1", subject=animal, group="g")
+    table = population_fano_table(tc, settings=MeanMatchSettings(n_boot=50, n_bins=6),
                                   seed=5).set_index("time_s")
     before, after = table.loc[-0.3], table.loc[0.2]
     assert after["mean_count"] > 1.5 * before["mean_count"]

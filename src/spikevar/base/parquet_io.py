@@ -105,26 +105,24 @@ def write_parquet_atomic(table: pa.Table, path: str | os.PathLike, *,
         raise
 
 
-def read_parquet_checked(path: str | os.PathLike, *, session: str | None = None) -> pa.Table:
-    """Read a Parquet file written by spikevar, refusing damaged files with a clear message."""
+def _checked(read: Callable, path: str | os.PathLike, session: str | None):
     try:
-        return pq.read_table(path)
+        return read(path)
     except (pa.ArrowException, OSError) as exc:
         raise SpikevarInputError(
             f"The intermediate file is damaged or not Parquet ({exc}).",
             fix="delete it and run the workflow again; it will be recomputed.",
             session=session, path=str(path)) from None
+
+
+def read_parquet_checked(path: str | os.PathLike, *, session: str | None = None) -> pa.Table:
+    """Read a Parquet file written by spikevar, refusing damaged files with a clear message."""
+    return _checked(pq.read_table, path, session)
 
 
 def read_schema_checked(path: str | os.PathLike, *, session: str | None = None) -> pa.Schema:
     """The schema of a Parquet file written by spikevar, refusing damaged files clearly."""
-    try:
-        return pq.read_schema(path)
-    except (pa.ArrowException, OSError) as exc:
-        raise SpikevarInputError(
-            f"The intermediate file is damaged or not Parquet ({exc}).",
-            fix="delete it and run the workflow again; it will be recomputed.",
-            session=session, path=str(path)) from None
+    return _checked(pq.read_schema, path, session)
 
 
 def read_metadata(path: str | os.PathLike) -> dict:

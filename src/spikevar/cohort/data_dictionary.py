@@ -115,12 +115,21 @@ TABLES: dict[str, dict[str, tuple[str, str, str]]] = {
         "window_s": ("window width", "s", ""),
         "n_units": ("units with a defined mean and variance in the window", "count", ""),
         "mean_count": ("mean across units of the mean count", "count", ""),
-        "fano_regression": ("slope of count variance on mean across units, through 0", "", ""),
-        "regression_ci_lo": ("95% interval of fano_regression, units resampled", "", ""),
-        "regression_ci_hi": ("95% interval of fano_regression, units resampled", "", ""),
-        "fano_mean_matched": ("mean-matched Fano factor", "", CHURCH),
-        "ci_lo": ("95% interval of fano_mean_matched, units resampled", "", ""),
-        "ci_hi": ("95% interval of fano_mean_matched, units resampled", "", ""),
+        "fano_regression": ("slope of count variance on mean across units through 0, weighted "
+                            "by the sampling error of each variance ((n_trials - 1) / mean^2)",
+                            "", CHURCH + " (weighting recalled from memory)"),
+        "regression_ci_lo": ("95% interval of fano_regression: subjects resampled, t(G-1) "
+                             "few-cluster correction", "", "Cameron & Miller 2015, J Hum "
+                             "Resour 50:317"),
+        "regression_ci_hi": ("upper end of that interval", "", ""),
+        "fano_regression_unweighted": ("ordinary least-squares slope through 0 (dominated by "
+                                       "high-rate units)", "", ""),
+        "fano_mean_matched": ("mean-matched Fano factor (weighted slope on the units kept; "
+                              "config population.match_across sets which series share the "
+                              "common distribution)", "", CHURCH),
+        "ci_lo": ("95% interval of fano_mean_matched: subjects resampled, the whole averaged "
+                  "matching redone in each resample, t(G-1) correction", "", ""),
+        "ci_hi": ("upper end of that interval", "", ""),
         "n_units_matched": ("units kept by mean matching per window", "count", CHURCH),
         "population_reason": ("why values are NaN ('' if defined)", "", ""),
     },
