@@ -292,3 +292,43 @@ def test_declared_span_is_recorded(tmp_path):
     _, _, out = run(tmp_path, path, span=(0.0, 10.0))
     meta = read_metadata(out / "spikes.parquet")
     assert meta["span_s"] == [0.0, 10.0] and meta["span_declared"] is True
+
+
+def events_case(tmp_path, frame):
+    spikes, events = tmp_path / "s.csv", tmp_path / "e.csv"
+    SPIKES.to_csv(spikes, index=False)
+    frame.to_csv(events, index=False)
+    return spikes, events
+
+
+def test_event_without_condition_is_refused(tmp_path):
+    spikes, events = events_case(tmp_path, pd.DataFrame(
+        {"time": [0.2, 0.6, 1.0], "condition": ["dim", "", "bright"]}))
+    with pytest.raises(SpikevarInputError) as err:
+        run(tmp_path, spikes, events)
+    message = str(err.value)
+    assert "1 event(s) have no condition, at row(s) 2 (line 3)" in message
+    assert "e.csv" in message and "s1" in message and "Fix:" in message
+
+
+def test_exact_duplicate_events_are_dropped_and_counted(tmp_path, caplog):
+    spikes, events = events_case(tmp_path, pd.DataFrame(
+        {"time": [0.2, 1.0, 0.2], "condition": ["dim", "bright", "dim"], "trial": [1, 2, 1]}))
+    _, ev, out = run(tmp_path, spikes, events)
+    assert ev["time_s"].tolist() == [0.2, 1.0]
+    meta = read_metadata(out / "events.parquet")
+    assert meta["duplicates_dropped"] == 1
+    assert any("duplicate event" in r.message for r in caplog.records)
+
+
+@pytest.mark.parametrize("frame,expected", [
+    (pd.DataFrame({"time": [0.2, 0.2], "condition": ["dim", "bright"]}),
+     "same time have different conditions"),
+    (pd.DataFrame({"time": [0.2, 0.2], "condition": ["dim", "dim"], "trial": [1, 2]}),
+     "differ in another column"),
+])
+def test_conflicting_events_at_one_time_are_refused(tmp_path, frame, expected):
+    spikes, events = events_case(tmp_path, frame)
+    with pytest.raises(SpikevarInputError, match=expected) as err:
+        run(tmp_path, spikes, events)
+    assert "1 (line 2), 2 (line 3)" in str(err.value)

@@ -242,17 +242,24 @@ def normalise_events(
     raw = _numeric_times(table.column(columns.event_time), name=columns.event_time,
                          text=text_source)
     seconds = time_units.to_seconds(raw, time_unit=time_unit, sampling_rate_hz=sampling_rate_hz)
-    cond = table.column(columns.event_condition)
-    if cond.null_count:
-        mask = cond.is_null().to_numpy(zero_copy_only=False)
+    cond = readers.as_text_column(table.column(columns.event_condition),
+                                  name=columns.event_condition)
+    labels = np.asarray(cond.to_pylist(), dtype=object)
+    missing = np.array([v is None or str(v).strip() == "" for v in labels], dtype=bool)
+    if missing.any():
         raise SpikevarInputError(
-            f"Empty condition at row(s) {_row_list(mask, text=text_source)}.",
-            fix="give every event a condition label.", where=f"column {columns.event_condition!r}")
-    cond = readers.as_text_column(cond, name=columns.event_condition)
+            f"{int(missing.sum())} event(s) have no condition, at row(s) "
+            f"{_row_list(missing, text=text_source)}.",
+            fix="give every event a condition label (an empty cell would otherwise become a "
+                "condition named '' with its own trials).",
+            where=f"column {columns.event_condition!r}")
     extras = [c for c in table.column_names
               if c not in (columns.event_time, columns.event_condition, "time_s", "condition")]
-    order = np.argsort(seconds, kind="stable")
+    order = np.lexsort((labels.astype(str), seconds))
     report.was_sorted = bool(np.all(order == np.arange(len(order))))
+    keep = _event_duplicates(table, seconds, labels, order, extras=extras, report=report,
+                             column=columns.event_time, text=text_source)
+    order = order[keep]
     arrays = {"time_s": pa.array(seconds[order], pa.float64()),
               "condition": cond.take(pa.array(order))}
     for c in extras:
@@ -273,6 +280,48 @@ def normalise_events(
     out = pa.table(arrays)
     report.rows_written = out.num_rows
     return out, report
+
+
+def _event_duplicates(table: pa.Table, seconds: np.ndarray, labels: np.ndarray,
+                      order: np.ndarray, *, extras: list[str], report: IngestReport, column: str,
+                      text: bool) -> np.ndarray:
+    """Which rows of ``order`` (sorted by time, then condition) to keep.
+
+    Exact duplicate rows (same time, condition and every other column) are dropped and counted,
+    as duplicate spikes are; two events at one time with different conditions are refused.
+    """
+    t, c = seconds[order], labels[order].astype(str)
+    same_time = np.r_[False, t[1:] == t[:-1]]
+    if not same_time.any():
+        return np.ones(len(order), dtype=bool)
+    conflict = same_time & np.r_[False, c[1:] != c[:-1]]
+    if conflict.any():
+        rows = np.zeros(len(seconds), dtype=bool)
+        at = np.flatnonzero(conflict)
+        rows[order[at]] = rows[order[at - 1]] = True
+        raise SpikevarInputError(
+            f"Events at the same time have different conditions, at row(s) "
+            f"{_row_list(rows, text=text)}.",
+            fix="one event per time: correct the condition or the time of these rows.",
+            where=f"column {column!r}")
+    same = same_time.copy()
+    for name in extras:  # an exact duplicate repeats every column
+        values = pd.Series(table.column(name).take(pa.array(order)).to_pylist(), dtype=object)
+        previous = values.shift()
+        same &= ((values == previous) | (values.isna() & previous.isna())).to_numpy(bool)
+    if (same_time & ~same).any():
+        rows = np.zeros(len(seconds), dtype=bool)
+        at = np.flatnonzero(same_time & ~same)
+        rows[order[at]] = rows[order[at - 1]] = True
+        raise SpikevarInputError(
+            f"Events at the same time and condition differ in another column, at row(s) "
+            f"{_row_list(rows, text=text)}.",
+            fix="remove the wrong copy (a trial listed twice would be counted twice).",
+            where=f"column {column!r}")
+    report.duplicates_dropped = int(same.sum())
+    report.warnings.append(f"dropped {report.duplicates_dropped} exact duplicate event row(s) "
+                           "(same time and condition).")
+    return ~same
 
 
 def empty_events() -> pa.Table:
@@ -368,7 +417,8 @@ def _ingest_events(path: Path, *, session, columns, time_unit, sampling_rate_hz,
     meta = {"kind": "events", "session": session, "source_path": str(path.resolve()),
             "source_sha256": sha256_of_file(path), "declared_time_unit": declared,
             "rows_read": report.rows_read, "rows_written": report.rows_written,
-            "warnings": report.warnings}
+            "duplicates_dropped": report.duplicates_dropped,
+            "sampling_rate_hz": sampling_rate_hz, "warnings": report.warnings}
     return events, meta
 
 
