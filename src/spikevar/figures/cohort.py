@@ -58,8 +58,8 @@ def population_fano_figure(pop: pd.DataFrame, path) -> None:
         bottom.set_ylabel("mean rate (Hz)")
         bottom.set_xlabel("time from event (s; window centre)")
         top.legend(fontsize=7)
-    fig.suptitle("Population Fano factor around the event (bands: 95% interval over units; "
-                 "dotted line: event)", x=0.01, ha="left")
+    fig.suptitle("Population Fano factor around the event (bands: 95% interval, animals "
+                 "resampled; dotted line: event)", x=0.01, ha="left")
     fig.tight_layout()
     figure_style.save(fig, path)
 
