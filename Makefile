@@ -7,6 +7,9 @@ CORES ?= 2
 DEMO_COHORT := demo/cohort
 DEMO_RESULTS := results/demo
 SMK := $(PY) -m snakemake --cores $(CORES)
+# the demo aligns trials on the flash (column time) and on the lick that follows it
+DEMO_CONFIG := sessions=$(DEMO_COHORT)/sessions.tsv results=$(DEMO_RESULTS) alignments='[time, lick_time]'
+
 
 .PHONY: demo test quick lint unit workflow-lint bench clean
 
@@ -19,9 +22,8 @@ $(STAMP): pyproject.toml
 ## demo: create the environment, build the synthetic demo cohort, run the whole pipeline
 demo: $(STAMP)
 	$(PY) -m spikevar.synth.demo --out $(DEMO_COHORT)
-	$(SMK) --config sessions=$(DEMO_COHORT)/sessions.tsv results=$(DEMO_RESULTS)
-	$(SMK) --config sessions=$(DEMO_COHORT)/sessions.tsv results=$(DEMO_RESULTS) \
-		--report $(DEMO_RESULTS)/report.html
+	$(SMK) --config $(DEMO_CONFIG)
+	$(SMK) --config $(DEMO_CONFIG) --report $(DEMO_RESULTS)/report.html
 	@$(PY) -m spikevar.pipeline.where $(DEMO_RESULTS)
 
 ## test: lint the code and the workflow, then run the whole test suite

@@ -66,3 +66,45 @@ def test_gain_variability_fano_drops_after_event():
     assert pre["fano"] == pytest.approx(1 + 0.36 * pre["mean_count"], rel=0.15)
     assert post["mean_count"] > pre["mean_count"] * 2
     assert post["fano"] < pre["fano"] - 0.2
+
+
+def test_two_alignments_and_a_missing_time():
+    # a unit that fires 0.1 s after each lick: aligned on the lick its counts peak at 0.1 s,
+    # aligned on the flash (0.5 s before) the peak moves to 0.6 s; trials without a lick time
+    # leave the lick alignment only, and are counted
+    from spikevar.metrics.session import timecourse_table
+
+    flashes = np.arange(2.0, 200.0, 2.0)
+    licks = flashes + 0.5
+    licks[::5] = np.nan
+    spikes_t = np.sort(np.concatenate([licks[np.isfinite(licks)] + 0.1,
+                                       np.arange(0.0, 202.0, 0.37)]))
+    spikes = SpikeArrays.from_arrays(np.full(len(spikes_t), "u"), spikes_t)
+    events = pd.DataFrame({"time_s": flashes, "condition": "flash"})
+    table = timecourse_table(spikes, events, windows=SlidingWindows(-0.2, 1.0, 0.1, 0.1),
+                             alignments={"time": flashes, "lick_time": licks},
+                             span=(0.0, 202.0))
+    by = {name: part.set_index("time_s") for name, part in table.groupby("alignment")}
+    assert by["lick_time"]["rate_hz"].idxmax() == pytest.approx(0.15)
+    assert by["time"]["rate_hz"].idxmax() == pytest.approx(0.65)
+    assert (by["lick_time"]["n_trials_no_time"] == 20).all()
+    assert (by["time"]["n_trials_no_time"] == 0).all()
+    assert (by["lick_time"]["n_trials"] == len(flashes) - 20).all()
+
+
+def test_alignment_column_errors_name_the_column():
+    from spikevar.base.errors import SpikevarInputError
+    from spikevar.metrics.session import alignment_times
+
+    events = pd.DataFrame({"time_s": [1.0, 2.0], "condition": "a", "lick": ["1.5", "soon"]})
+    with pytest.raises(SpikevarInputError, match="no column 'reward'") as err:
+        alignment_times(events, ["reward"], event_time_column="time", seconds_per_unit=1.0,
+                        session="s1", path="e.csv")
+    assert "s1" in str(err.value) and "e.csv" in str(err.value)
+    with pytest.raises(SpikevarInputError, match="not times"):
+        alignment_times(events, ["lick"], event_time_column="time", seconds_per_unit=1.0,
+                        session="s1", path="e.csv")
+    ms = alignment_times(events.assign(lick=[1500, None]), ["time", "lick"],
+                         event_time_column="time", seconds_per_unit=1e-3, session="s1",
+                         path="e.csv")
+    assert ms["lick"][0] == pytest.approx(1.5) and np.isnan(ms["lick"][1])

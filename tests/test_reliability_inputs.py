@@ -158,3 +158,10 @@ def test_damaged_intermediate_is_reported_not_read(tmp_path):
     with pytest.raises(SpikevarInputError, match="damaged") as info:
         load_spikes(path, session="s9")
     assert "s9" in str(info.value) and "rerun" in str(info.value)
+
+
+def test_superscript_digit_unit_id_is_text_not_an_integer(tmp_path):
+    # found by the generated tables once broad excepts no longer hid errors: "²".isdigit()
+    path = tmp_path / "sup.csv"
+    path.write_text("unit,time\n²,0.5\n2,0.25\n")
+    assert outcome(tmp_path, path) == "ok"

@@ -12,7 +12,7 @@ from conftest import REPO, run_snakemake
 
 pytestmark = pytest.mark.workflow
 
-SESSION_RULES = {"ingest_session", "session_metrics", "session_recovery",
+SESSION_RULES = {"ingest_session", "session_metrics", "session_timecourse", "session_recovery",
                  "session_recovery_figure"}
 COHORT_RULES = {"cohort_table", "population_fano", "group_summary", "handoff", "cohort_figures"}
 
@@ -119,8 +119,15 @@ def test_metric_parameter_reruns_only_rules_that_use_it(finished):
                                  "session_recovery_figure"}
 
 
-SESSION_RULES = {"ingest_session", "session_metrics", "session_recovery",
-                 "session_recovery_figure"}
+def test_adding_an_alignment_reruns_only_event_aligned_rules(finished):
+    work, sheet = finished
+    override = work / "alignments.yaml"
+    override.write_text("alignments: [time, lick_time]\n")
+    jobs = rules_of(planned_jobs(work, sheet, "--configfile",
+                                 str(REPO / "config" / "config.yaml"), str(override)))
+    assert {"session_timecourse", "population_fano"} <= jobs
+    assert not jobs & {"ingest_session", "session_metrics", "session_recovery",
+                       "session_recovery_figure", "group_summary"}
 
 
 @pytest.mark.parametrize("module,reruns,keeps", [

@@ -3,15 +3,11 @@
 
 rule session_metrics:
     input:
-        **{t: LAYOUT.session_table("{session}", t) for t in NORMALISED_TABLES},
+        spikes=LAYOUT.session_table("{session}", "spikes"),
     output:
-        **{
-            t: LAYOUT.session_table("{session}", t)
-            for t in ("units", "count_fano", "fano_timecourse")
-        },
+        **{t: LAYOUT.session_table("{session}", t) for t in ("units", "count_fano")},
     params:
         metrics=config["metrics"],
-        timecourse=config["timecourse"],
         span=lambda w: declared_span(SHEET, w.session),
         code=code_fingerprint("metrics.session", "base.settings"),
     log:
@@ -27,3 +23,31 @@ rule session_metrics:
         runtime=30,
     script:
         "../../scripts/session_metrics.py"
+
+
+# Event-aligned: its own job, so that event settings (timecourse, alignments) rerun only the
+# event-aligned tables.
+rule session_timecourse:
+    input:
+        **{t: LAYOUT.session_table("{session}", t) for t in NORMALISED_TABLES},
+    output:
+        LAYOUT.session_table("{session}", "fano_timecourse"),
+    params:
+        timecourse=config["timecourse"],
+        alignments=config["alignments"],
+        event_time_column=config["columns"]["event_time"],
+        span=lambda w: declared_span(SHEET, w.session),
+        code=code_fingerprint("metrics.session", "base.settings"),
+    log:
+        **LAYOUT.session_logs("{session}", "timecourse"),
+    benchmark:
+        LAYOUT.session_benchmark("{session}", "session_timecourse")
+    conda:
+        "../envs/spikevar.yaml"
+    group:
+        "session"
+    resources:
+        mem_mb=6000,
+        runtime=30,
+    script:
+        "../../scripts/session_timecourse.py"

@@ -38,6 +38,7 @@ FIGURE_FORMATS = ("png", "svg")
 SESSION_STEPS = (
     ("ingest_session", "ingest", "spikes"),
     ("session_metrics", "metrics", "units"),
+    ("session_timecourse", "timecourse", "fano_timecourse"),
     ("session_recovery", "recovery", "recovery"),
     ("session_recovery_figure", "recovery_figure", None),
 )

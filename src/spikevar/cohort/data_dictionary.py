@@ -65,11 +65,15 @@ TABLES: dict[str, dict[str, tuple[str, str, str]]] = {
     },
     "fano_timecourse": {
         "unit": ("unit id", "", ""),
+        "alignment": ("event-table column the trials are aligned on (config alignments)", "",
+                      ""),
         "condition": ("event condition", "", ""),
-        "time_s": ("window centre relative to the event", "s", ""),
+        "time_s": ("window centre relative to the alignment event", "s", ""),
         "window_s": ("window width", "s", ""),
         "n_trials": ("trials whose windows lie inside the recording", "count", ""),
         "n_trials_dropped": ("trials dropped because a window left the recording", "count", ""),
+        "n_trials_no_time": ("trials without a time in this alignment's column (left out of "
+                             "this alignment only)", "count", ""),
         "mean_count": ("mean count across trials", "count", ""),
         "var_count": ("variance across trials (ddof = 1)", "count^2", ""),
         "fano": ("Fano factor across trials", "", ""),
@@ -111,6 +115,7 @@ TABLES: dict[str, dict[str, tuple[str, str, str]]] = {
     },
     "population_fano": {
         "condition": ("event condition", "", ""),
+        "alignment": ("event-table column the trials are aligned on", "", ""),
         "time_s": ("window centre relative to the event", "s", ""),
         "window_s": ("window width", "s", ""),
         "n_units": ("units with a defined mean and variance in the window", "count", ""),

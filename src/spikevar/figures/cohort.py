@@ -26,40 +26,52 @@ def _finish(fig, ax, path, *, xlabel: str, ylabel: str, title: str) -> None:
 
 
 def population_fano_figure(pop: pd.DataFrame, path) -> None:
-    """Mean-matched and regression Fano factor over event-aligned time, per group/condition."""
+    """Mean-matched and regression Fano factor over event-aligned time: a column per group, a
+    pair of rows (Fano factor above, mean rate below) per alignment."""
     import matplotlib.pyplot as plt
 
     groups = sorted(pop["group"].unique()) if len(pop) else ["(none)"]
-    fig, axes = plt.subplots(2, len(groups), figsize=(4.2 * len(groups), 5.6), squeeze=False,
-                             sharex=True, gridspec_kw={"height_ratios": [2, 1]})
+    if "alignment" not in pop:
+        pop = pop.assign(alignment="event")
+    alignments = sorted(pop["alignment"].unique()) if len(pop) else ["event"]
+    n_rows = 2 * len(alignments)
+    fig, axes = plt.subplots(n_rows, len(groups), figsize=(4.2 * len(groups),
+                                                           0.3 + 2.65 * n_rows),
+                             squeeze=False, sharex=True,
+                             gridspec_kw={"height_ratios": [2, 1] * len(alignments)})
     conditions = sorted(pop["condition"].unique()) if len(pop) else []
     colours = _group_colours(conditions)
-    for j, group in enumerate(groups):
-        top, bottom = axes[0, j], axes[1, j]
-        for k, cond in enumerate(conditions):
-            part = pop[(pop["group"] == group) & (pop["condition"] == cond)].sort_values("time_s")
-            if part.empty:
-                continue
-            c = colours[cond]
-            top.fill_between(part["time_s"], part["ci_lo"], part["ci_hi"], color=c, alpha=0.18,
-                             linewidth=0)
-            top.plot(part["time_s"], part["fano_mean_matched"], color=c, lw=1.8,
-                     marker=figure_style.MARKERS[k], markevery=6, ms=4,
-                     label=f"{cond}: mean-matched")
-            top.plot(part["time_s"], part["fano_regression"], color=c, lw=1.0, ls="--",
-                     label=f"{cond}: all units")
-            bottom.plot(part["time_s"], part["mean_count"] / part["window_s"], color=c, lw=1.4,
-                        marker=figure_style.MARKERS[k], markevery=6, ms=4, label=cond)
-        for ax in (top, bottom):
-            ax.axvline(0.0, color=figure_style.INK, lw=0.9, ls=":")
-        top.axhline(1.0, color="#9aa5b1", lw=0.8)
-        top.set_title(f"group {group}", loc="left")
-        top.set_ylabel("Fano factor (count variance / mean)")
-        bottom.set_ylabel("mean rate (Hz)")
-        bottom.set_xlabel("time from event (s; window centre)")
-        top.legend(fontsize=7)
-    fig.suptitle("Population Fano factor around the event (bands: 95% interval, animals "
-                 "resampled; dotted line: event)", x=0.01, ha="left")
+    for a, alignment in enumerate(alignments):
+        for j, group in enumerate(groups):
+            top, bottom = axes[2 * a, j], axes[2 * a + 1, j]
+            for k, cond in enumerate(conditions):
+                part = pop[(pop["group"] == group) & (pop["condition"] == cond)
+                           & (pop["alignment"] == alignment)].sort_values("time_s")
+                if part.empty:
+                    continue
+                c = colours[cond]
+                top.fill_between(part["time_s"], part["ci_lo"], part["ci_hi"], color=c,
+                                 alpha=0.18, linewidth=0)
+                top.plot(part["time_s"], part["fano_mean_matched"], color=c, lw=1.8,
+                         marker=figure_style.MARKERS[k], markevery=6, ms=4,
+                         label=f"{cond}: mean-matched")
+                top.plot(part["time_s"], part["fano_regression"], color=c, lw=1.0, ls="--",
+                         label=f"{cond}: all units")
+                bottom.plot(part["time_s"], part["mean_count"] / part["window_s"], color=c,
+                            lw=1.4, marker=figure_style.MARKERS[k], markevery=6, ms=4,
+                            label=cond)
+            for ax in (top, bottom):
+                ax.axvline(0.0, color=figure_style.INK, lw=0.9, ls=":")
+            top.axhline(1.0, color="#9aa5b1", lw=0.8)
+            top.set_title(f"group {group}, aligned on {alignment}", loc="left")
+            top.set_ylabel("Fano factor (count variance / mean)")
+            bottom.set_ylabel("mean rate (Hz)")
+            if a == 0 and j == len(groups) - 1:
+                top.legend(fontsize=7)
+    for j in range(len(groups)):
+        axes[-1, j].set_xlabel("time from the alignment event (s; window centre)")
+    fig.suptitle("Population Fano factor around each alignment event (bands: 95% interval, "
+                 "animals resampled; dotted line: the event)", x=0.01, ha="left")
     fig.tight_layout()
     figure_style.save(fig, path)
 

@@ -418,7 +418,9 @@ def _ingest_events(path: Path, *, session, columns, time_unit, sampling_rate_hz,
             "source_sha256": sha256_of_file(path), "declared_time_unit": declared,
             "rows_read": report.rows_read, "rows_written": report.rows_written,
             "duplicates_dropped": report.duplicates_dropped,
-            "sampling_rate_hz": sampling_rate_hz, "warnings": report.warnings}
+            "sampling_rate_hz": sampling_rate_hz,
+            "seconds_per_unit": time_units.seconds_per_tick(declared, sampling_rate_hz),
+            "warnings": report.warnings}
     return events, meta
 
 

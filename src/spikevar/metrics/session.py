@@ -1,4 +1,5 @@
-"""Compute and write one session's metric tables: units, count_fano and fano_timecourse."""
+"""Compute and write one session's metric tables: units and count_fano (rule session_metrics),
+and the event-aligned fano_timecourse (rule session_timecourse)."""
 
 from __future__ import annotations
 
@@ -9,7 +10,13 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from spikevar.base.parquet_io import frame_to_arrow, read_parquet_checked, write_parquet_atomic
+from spikevar.base.errors import SpikevarInputError
+from spikevar.base.parquet_io import (
+    frame_to_arrow,
+    read_metadata,
+    read_parquet_checked,
+    write_parquet_atomic,
+)
 from spikevar.base.spike_arrays import SpikeArrays, load_spikes, recording_span
 from spikevar.metrics.count_fano import count_fano_table
 from spikevar.metrics.fano_timecourse import SlidingWindows, fano_timecourse_table
@@ -21,10 +28,9 @@ log = logging.getLogger(__name__)
 #: fano_to_cv2 is reported only when the longest counting window holds this many mean intervals
 MIN_INTERVALS_FOR_FF_CV2 = 20
 
-def compute_tables(spikes: SpikeArrays, events: pd.DataFrame, *, settings: MetricSettings,
-                   windows: SlidingWindows, span: tuple[float, float] | None = None
-                   ) -> dict[str, pd.DataFrame]:
-    """The three per-session tables (without the session column)."""
+def unit_tables(spikes: SpikeArrays, *, settings: MetricSettings,
+                span: tuple[float, float] | None = None) -> dict[str, pd.DataFrame]:
+    """The whole-recording tables ``units`` and ``count_fano`` (without the session column)."""
     start, stop = recording_span(spikes, span)
     units = unit_isi_table(spikes, duration_s=stop - start, settings=settings)
     counts = count_fano_table(spikes, windows_s=settings.counting_windows_s, start_s=start,
@@ -41,32 +47,121 @@ def compute_tables(spikes: SpikeArrays, events: pd.DataFrame, *, settings: Metri
     units["fano_to_cv2_reason"] = np.where(
         np.isnan(units["mean_isi_s"].to_numpy()), "no ISI statistics",
         np.where(short, f"longest window under {MIN_INTERVALS_FOR_FF_CV2} mean intervals", ""))
-    timecourse = fano_timecourse_table(spikes, events, windows=windows,
-                                       recording_s=(start, stop))
-    return {"units": units, "count_fano": counts, "fano_timecourse": timecourse}
+    return {"units": units, "count_fano": counts}
 
 
-def run_session_metrics(*, session: str, spikes_path, events_path, outputs: dict[str, str],
-                        settings: MetricSettings, windows: SlidingWindows,
-                        span: tuple[float, float] | None = None) -> None:
-    """Read a session's normalised tables, compute the metrics, write each table atomically."""
+def timecourse_table(spikes: SpikeArrays, events: pd.DataFrame, *, windows: SlidingWindows,
+                     alignments: dict[str, np.ndarray] | None = None,
+                     span: tuple[float, float] | None = None) -> pd.DataFrame:
+    """The event-aligned ``fano_timecourse`` table, one block per alignment.
+
+    ``alignments`` maps an alignment's name (its event-table column) to each event's time in
+    seconds (NaN = no time for that event); default: the event time ``time_s`` as
+    ``"event"``. A trial without a time in one alignment is left out of that alignment only
+    and counted in ``n_trials_no_time``.
+    """
+    if alignments is None:
+        alignments = {"event": events["time_s"].to_numpy(float) if len(events) else np.zeros(0)}
+    start, stop = recording_span(spikes, span)
+    blocks = []
+    for name, times in alignments.items():
+        times = np.asarray(times, dtype=float)
+        has_time = np.isfinite(times)
+        aligned = pd.DataFrame({"time_s": times[has_time],
+                                "condition": events["condition"].to_numpy()[has_time]})
+        block = fano_timecourse_table(spikes, aligned, windows=windows,
+                                      recording_s=(start, stop))
+        missing = pd.Series(events["condition"].to_numpy()[~has_time]).value_counts()
+        block.insert(1, "alignment", name)
+        block["n_trials_no_time"] = block["condition"].map(missing).fillna(0).astype(np.int64)
+        blocks.append(block)
+    return pd.concat(blocks, ignore_index=True)
+
+
+def compute_tables(spikes: SpikeArrays, events: pd.DataFrame, *, settings: MetricSettings,
+                   windows: SlidingWindows, span: tuple[float, float] | None = None
+                   ) -> dict[str, pd.DataFrame]:
+    """All three per-session tables (without the session column); the rules write them in two
+    jobs (``session_metrics``, ``session_timecourse``) so that event settings rerun only the
+    event-aligned tables."""
+    tables = unit_tables(spikes, settings=settings, span=span)
+    tables["fano_timecourse"] = timecourse_table(spikes, events, windows=windows, span=span)
+    return tables
+
+
+def alignment_times(events: pd.DataFrame, names: list[str], *, event_time_column: str,
+                    seconds_per_unit: float, session: str, path) -> dict[str, np.ndarray]:
+    """Each alignment's event times in seconds, from the normalised events table.
+
+    The event time column itself is ``time_s``; another alignment column is read as numbers in
+    the event table's time unit (``seconds_per_unit`` from the ingestion record); empty cells
+    are events without that time.
+    """
+    out = {}
+    for name in names or [event_time_column]:
+        if name == event_time_column or len(events) == 0:
+            out[name] = events["time_s"].to_numpy(float)
+            continue
+        if name not in events.columns:
+            raise SpikevarInputError(
+                f"The event table has no column {name!r} to align on.",
+                fix=f"add the column, or remove {name!r} from the config's alignments "
+                    f"(columns present: {', '.join(map(str, events.columns))}).",
+                session=session, path=str(path), where=f"column {name!r}")
+        raw = events[name]
+        values = pd.to_numeric(raw, errors="coerce")
+        bad = values.isna() & raw.notna() & (raw.astype(str).str.strip() != "")
+        if bad.any():
+            rows = ", ".join(str(i + 1) for i in np.flatnonzero(bad.to_numpy())[:5])
+            raise SpikevarInputError(
+                f"Alignment column {name!r} holds values that are not times (rows {rows} of "
+                "the time-sorted event table).",
+                fix="store alignment times as numbers in the event table's time unit; leave a "
+                    "cell empty when an event has no such time.",
+                session=session, path=str(path), where=f"column {name!r}")
+        out[name] = values.to_numpy(float) * seconds_per_unit
+    return out
+
+
+def run_session_metrics(*, session: str, spikes_path, outputs: dict[str, str],
+                        settings: MetricSettings, span: tuple[float, float] | None = None
+                        ) -> None:
+    """Read a session's spikes, compute ``units`` and ``count_fano``, write them atomically."""
     spikes = load_spikes(spikes_path, session=session)
-    events = read_parquet_checked(events_path, session=session).to_pandas()
-    tables = compute_tables(spikes, events, settings=settings, windows=windows, span=span)
-    meta = {"session": session, "settings": asdict(settings), "timecourse": asdict(windows),
+    tables = unit_tables(spikes, settings=settings, span=span)
+    meta = {"session": session, "settings": asdict(settings),
             "span_s": recording_span(spikes, span), "span_declared": span is not None}
     for name, frame in tables.items():
         frame.insert(0, "session", session)
         write_parquet_atomic(frame_to_arrow(frame), Path(outputs[name]), metadata=meta)
     few = int((tables["units"]["isi_reason"] != "").sum())
-    log.info("session %s: %d units (%d without ISI metrics), %d count rows, %d timecourse rows",
-             session, len(tables["units"]), few, len(tables["count_fano"]),
-             len(tables["fano_timecourse"]))
+    log.info("session %s: %d units (%d without ISI metrics), %d count rows", session,
+             len(tables["units"]), few, len(tables["count_fano"]))
+
+
+def run_session_timecourse(*, session: str, spikes_path, events_path, output: str,
+                           windows: SlidingWindows, alignments: list[str],
+                           event_time_column: str, span: tuple[float, float] | None = None
+                           ) -> None:
+    """Read a session's spikes and events, write the event-aligned ``fano_timecourse``."""
+    spikes = load_spikes(spikes_path, session=session)
+    events = read_parquet_checked(events_path, session=session).to_pandas()
+    record = read_metadata(events_path)
+    times = alignment_times(events, list(alignments), event_time_column=event_time_column,
+                            seconds_per_unit=float(record.get("seconds_per_unit", 1.0)),
+                            session=session, path=record.get("source_path") or events_path)
+    frame = timecourse_table(spikes, events, windows=windows, alignments=times, span=span)
+    frame.insert(0, "session", session)
+    write_parquet_atomic(frame_to_arrow(frame), Path(output), metadata={
+        "session": session, "timecourse": asdict(windows), "alignments": list(times),
+        "span_s": recording_span(spikes, span), "span_declared": span is not None})
     if len(events) == 0:
         log.info("session %s: no events; fano_timecourse is empty.", session)
-    dropped = tables["fano_timecourse"].groupby("condition")["n_trials_dropped"].first() \
-        if len(tables["fano_timecourse"]) else pd.Series(dtype=np.int64)
-    for cond, n in dropped.items():
+    dropped = frame.groupby(["alignment", "condition"])["n_trials_dropped"].first() \
+        if len(frame) else pd.Series(dtype=np.int64)
+    for (name, cond), n in dropped.items():
         if n:
-            log.warning("session %s: %d trial(s) of condition %s dropped: their windows leave "
-                        "the recording.", session, n, cond)
+            log.warning("session %s: %d trial(s) of condition %s dropped for alignment %s: "
+                        "their windows leave the recording.", session, n, cond, name)
+    log.info("session %s: %d timecourse rows over %d alignment(s)", session, len(frame),
+             len(times))

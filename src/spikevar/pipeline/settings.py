@@ -31,7 +31,7 @@ SECTIONS = {
     "bootstrap": BootstrapSettings,
 }
 #: top-level keys that are single values, not sections
-TOP_LEVEL = ("sessions", "results", "time_unit", "sampling_rate_hz", "seed")
+TOP_LEVEL = ("sessions", "results", "time_unit", "sampling_rate_hz", "seed", "alignments")
 
 
 def check_config(config: Mapping) -> dict:

@@ -37,7 +37,7 @@ from scipy import stats
 from spikevar.base.resampling import hierarchical_resample_indices
 from spikevar.population.settings import MeanMatchSettings
 
-COLUMNS = ["group", "condition", "time_s", "window_s", "n_units", "mean_count",
+COLUMNS = ["group", "condition", "alignment", "time_s", "window_s", "n_units", "mean_count",
            "fano_regression", "regression_ci_lo", "regression_ci_hi",
            "fano_regression_unweighted", "fano_mean_matched", "ci_lo", "ci_hi",
            "n_units_matched", "population_reason"]
@@ -113,6 +113,7 @@ class Series:
 
     group: str
     condition: str
+    alignment: str
     mean: np.ndarray
     var: np.ndarray
     n_trials: np.ndarray
@@ -175,12 +176,12 @@ def _series_of(tc: pd.DataFrame, times: np.ndarray):
         units = part.drop_duplicates("unit_key")[["unit_key", "subject", "session"]]
         units = units.sort_values("unit_key").reset_index(drop=True)
         groups[group] = units
-        for condition, cond in part.groupby("condition", sort=True):
+        for (condition, alignment), cond in part.groupby(["condition", "alignment"], sort=True):
             def matrix(column, cond=cond, units=units):
                 return (cond.pivot_table(index="unit_key", columns="time_s", values=column,
                                          dropna=False)
                         .reindex(index=units["unit_key"], columns=times).to_numpy(float))
-            series.append(Series(str(group), str(condition), matrix("mean_count"),
+            series.append(Series(str(group), str(condition), str(alignment), matrix("mean_count"),
                                  matrix("var_count"), matrix("n_trials")))
     return series, groups
 
@@ -198,6 +199,7 @@ def population_fano_table(timecourse: pd.DataFrame, *, settings: MeanMatchSettin
     """
     if len(timecourse) == 0:
         return pd.DataFrame({c: pd.Series(dtype=float if c not in ("group", "condition",
+                                                                    "alignment",
                                                                     "population_reason")
                                           else object) for c in COLUMNS})
     rng = np.random.default_rng(seed)
@@ -208,10 +210,12 @@ def population_fano_table(timecourse: pd.DataFrame, *, settings: MeanMatchSettin
                            group=timecourse["group"].astype(str), subject=subject.astype(str))
     if "n_trials" not in tc:
         tc["n_trials"] = 2.0  # equal weights when the trial counts are not known
+    if "alignment" not in tc:
+        tc["alignment"] = "event"
     times = np.sort(tc["time_s"].unique())
     series, groups = _series_of(tc, times)
     scope_names = {"cohort": lambda s: "", "group": lambda s: s.group,
-                   "series": lambda s: (s.group, s.condition)}[settings.match_across]
+                   "series": lambda s: (s.group, s.condition, s.alignment)}[settings.match_across]
     keys = [scope_names(s) for s in series]
     scopes = [keys.index(k) for k in keys]
     edges = bin_edges([s.mean for s in series], settings.n_bins)
@@ -228,7 +232,7 @@ def population_fano_table(timecourse: pd.DataFrame, *, settings: MeanMatchSettin
     boot = {k: np.full((settings.n_boot, len(series), len(times)), np.nan)
             for k in ("regression", "matched")}
     for b in range(settings.n_boot):
-        resampled = [Series(s.group, s.condition, s.mean[draws[s.group][b]],
+        resampled = [Series(s.group, s.condition, s.alignment, s.mean[draws[s.group][b]],
                             s.var[draws[s.group][b]], s.n_trials[draws[s.group][b]])
                      for s in series]
         for k, result in enumerate(estimate(resampled, scopes, edges,
@@ -261,7 +265,8 @@ def population_fano_table(timecourse: pd.DataFrame, *, settings: MeanMatchSettin
             warnings.simplefilter("ignore", RuntimeWarning)
             mean_count = np.nanmean(s.mean, axis=0)
         frames.append(pd.DataFrame({
-            "group": s.group, "condition": s.condition, "time_s": times, "window_s": widths,
+            "group": s.group, "condition": s.condition, "alignment": s.alignment,
+            "time_s": times, "window_s": widths,
             "n_units": usable.astype(np.int64), "mean_count": mean_count,
             "fano_regression": nan_unless(result["regression"], enough),
             "regression_ci_lo": nan_unless(reg_lo[k], enough),

@@ -78,8 +78,12 @@ def simulate_session(rng: np.random.Generator, *, group: str, size: DemoSize):
         units.append(np.full(len(train), f"u{u + 1:02d}"))
         times.append(train)
     spikes = pd.DataFrame({"unit": np.concatenate(units), "time": np.concatenate(times)})
+    # the animal licks 0.35-0.6 s after most flashes (a second event to align on); on about a
+    # fifth of the trials it does not, and that trial has no lick time (empty cell)
+    licks = onsets + rng.uniform(0.35, 0.6, len(onsets))
+    licks[rng.random(len(onsets)) < 0.2] = np.nan
     events = pd.DataFrame({"time": onsets, "condition": conditions,
-                           "trial": np.arange(1, len(onsets) + 1)})
+                           "trial": np.arange(1, len(onsets) + 1), "lick_time": licks})
     return spikes, events
 
 
@@ -97,8 +101,12 @@ def write_nwb(path: Path, spikes: pd.DataFrame, events: pd.DataFrame, session: s
     for unit, frame in spikes.groupby("unit", sort=True):
         nwb.add_unit(spike_times=frame["time"].to_numpy(), unit=str(unit))
     nwb.add_trial_column(name="condition", description="flash condition (synthetic)")
-    for t, c in zip(events["time"], events["condition"], strict=True):
-        nwb.add_trial(start_time=float(t), stop_time=float(t) + 1.0, condition=str(c))
+    licks = events["lick_time"] if "lick_time" in events else None
+    if licks is not None:
+        nwb.add_trial_column(name="lick_time", description="lick time, s (synthetic; NaN: none)")
+    for i, (t, c) in enumerate(zip(events["time"], events["condition"], strict=True)):
+        extra = {} if licks is None else {"lick_time": float(licks.iloc[i])}
+        nwb.add_trial(start_time=float(t), stop_time=float(t) + 1.0, condition=str(c), **extra)
     with NWBHDF5IO(str(path), "w") as io:
         io.write(nwb)
 
@@ -117,7 +125,7 @@ def write_session(folder: Path, session: str, subject: str, spikes: pd.DataFrame
         ms = spikes.assign(time=spikes["time"] * 1e3)
         ms.to_csv(folder / f"{session}_spikes.tsv.gz", sep="\t", index=False,
                   float_format="%.3f")
-        events.assign(time=events["time"] * 1e3).to_csv(
+        events.assign(time=events["time"] * 1e3, lick_time=events["lick_time"] * 1e3).to_csv(
             folder / f"{session}_events.tsv", sep="\t", index=False, float_format="%.3f")
         row.update(spikes=f"{session}_spikes.tsv.gz", events=f"{session}_events.tsv",
                    time_unit="ms")
@@ -130,7 +138,9 @@ def write_session(folder: Path, session: str, subject: str, spikes: pd.DataFrame
         samples = np.round(spikes["time"] * SAMPLING_RATE_HZ).astype(np.int64)
         spikes.assign(time=samples).to_csv(folder / f"{session}_spikes.csv", index=False)
         ev = np.round(events["time"] * SAMPLING_RATE_HZ).astype(np.int64)
-        events.assign(time=ev).to_csv(folder / f"{session}_events.csv", index=False)
+        lick = np.round(events["lick_time"] * SAMPLING_RATE_HZ).astype("Int64")
+        events.assign(time=ev, lick_time=lick).to_csv(folder / f"{session}_events.csv",
+                                                      index=False)
         row.update(spikes=f"{session}_spikes.csv", events=f"{session}_events.csv",
                    time_unit="samples", sampling_rate_hz=f"{SAMPLING_RATE_HZ:g}")
     elif fmt == "nwb":
