@@ -91,18 +91,14 @@ def write_parquet_atomic(table: pa.Table, path: str | os.PathLike, *,
 
     if not late:
         table = table.replace_schema_metadata(pairs())
-    tmp = temporary_sibling(path)
-    try:
+
+    def write(tmp: Path) -> None:
         with pq.ParquetWriter(tmp, table.schema, **options) as writer:
             writer.write_table(table)
             if late:  # without the stored Arrow schema the key-value pairs go in by hand
                 writer.add_key_value_metadata({k.decode(): v.decode() for k, v in pairs().items()})
-        publish(tmp, path)
-    except BaseException as exc:
-        tmp.unlink(missing_ok=True)
-        if is_disk_full(exc):
-            raise OutputSpaceError(path) from None
-        raise
+
+    write_with_temporary(path, write)
 
 
 def _checked(read: Callable, path: str | os.PathLike, session: str | None):

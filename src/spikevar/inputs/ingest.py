@@ -294,14 +294,18 @@ def _event_duplicates(table: pa.Table, seconds: np.ndarray, labels: np.ndarray,
     same_time = np.r_[False, t[1:] == t[:-1]]
     if not same_time.any():
         return np.ones(len(order), dtype=bool)
+    def both_rows(flags: np.ndarray) -> str:
+        """The raw rows of each flagged sorted row and of the row before it."""
+        rows = np.zeros(len(seconds), dtype=bool)
+        at = np.flatnonzero(flags)
+        rows[order[at]] = rows[order[at - 1]] = True
+        return _row_list(rows, text=text)
+
     conflict = same_time & np.r_[False, c[1:] != c[:-1]]
     if conflict.any():
-        rows = np.zeros(len(seconds), dtype=bool)
-        at = np.flatnonzero(conflict)
-        rows[order[at]] = rows[order[at - 1]] = True
         raise SpikevarInputError(
             f"Events at the same time have different conditions, at row(s) "
-            f"{_row_list(rows, text=text)}.",
+            f"{both_rows(conflict)}.",
             fix="one event per time: correct the condition or the time of these rows.",
             where=f"column {column!r}")
     same = same_time.copy()
@@ -310,12 +314,9 @@ def _event_duplicates(table: pa.Table, seconds: np.ndarray, labels: np.ndarray,
         previous = values.shift()
         same &= ((values == previous) | (values.isna() & previous.isna())).to_numpy(bool)
     if (same_time & ~same).any():
-        rows = np.zeros(len(seconds), dtype=bool)
-        at = np.flatnonzero(same_time & ~same)
-        rows[order[at]] = rows[order[at - 1]] = True
         raise SpikevarInputError(
             f"Events at the same time and condition differ in another column, at row(s) "
-            f"{_row_list(rows, text=text)}.",
+            f"{both_rows(same_time & ~same)}.",
             fix="remove the wrong copy (a trial listed twice would be counted twice).",
             where=f"column {column!r}")
     report.duplicates_dropped = int(same.sum())
