@@ -11,6 +11,7 @@ from spikevar.recovery.fit import (
     Intervals,
     fit_all,
     ks_uniform,
+    nested_lr_pvalues,
     preferred_model,
     rescaled_intervals,
 )
@@ -70,3 +71,20 @@ def test_ks_rejects_poisson_for_recovery_data():
     rng = np.random.default_rng(41)
     p = ks_pvalues(simulate.ExpRecoveryISI(20.0, 0.010), "poisson", 5000, 100, rng)
     assert np.mean(p < 0.05) >= 0.90
+
+
+def test_nested_lr_pvalues_have_their_size():
+    # dead_time vs poisson under Poisson truth: the exact Beta(1, n - 1) null of the threshold
+    # gain (minimum's share of a sum of exponentials) gives size 5%; exp_recovery vs dead_time
+    # under dead-time truth: the 1/2 chi2_0 + 1/2 chi2_1 boundary null (Self & Liang 1987,
+    # JASA 82:605) is conservative here (size at most 5%). 300 trains of 2,000 intervals each.
+    rng = np.random.default_rng(51)
+    p_dt = [nested_lr_pvalues(f, iv.n)["dead_time"]
+            for iv, f in (fits_of(simulate.PoissonISI(20.0), 2000, rng) for _ in range(300))]
+    p_er = [nested_lr_pvalues(f, iv.n)["exp_recovery"]
+            for iv, f in (fits_of(simulate.DeadTimeISI(20.0, 0.002), 2000, rng)
+                          for _ in range(300))]
+    assert 0.025 <= np.mean(np.array(p_dt) < 0.05) <= 0.08
+    assert np.mean(np.array(p_er) < 0.05) <= 0.06
+    # the exact null also holds over the whole range: p-values are uniform under Poisson
+    assert np.mean(np.array(p_dt) < 0.5) == pytest.approx(0.5, abs=0.08)

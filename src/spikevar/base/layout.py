@@ -75,7 +75,10 @@ class ResultsLayout:
         return f"{self.root}/figures/{figure}.{fmt}"
 
     def cohort_log(self, step: str) -> str:
-        return f"{self.root}/logs/cohort/{step}.log"
+        return f"{self.cohort_log_folder()}/{step}.log"
+
+    def cohort_log_folder(self) -> str:
+        return f"{self.root}/logs/cohort"
 
     def cohort_benchmark(self, rule: str) -> str:
         return f"{self.root}/benchmarks/cohort/{rule}.tsv"

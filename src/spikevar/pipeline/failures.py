@@ -12,7 +12,13 @@ from __future__ import annotations
 import logging
 from pathlib import Path
 
-from spikevar.base.layout import SESSION_STEPS, SESSION_TABLES, ResultsLayout, failure_record_path
+from spikevar.base.layout import (
+    FAILURE_SUFFIX,
+    SESSION_STEPS,
+    SESSION_TABLES,
+    ResultsLayout,
+    failure_record_path,
+)
 from spikevar.cohort.tables import assemble_cohort_table, write_failed_sessions
 from spikevar.pipeline.jobs import read_failure_record
 
@@ -36,8 +42,8 @@ def session_failure(layout: ResultsLayout, session: str) -> dict | None:
 
 def cohort_failures(layout: ResultsLayout) -> list[dict]:
     """Failure records of cohort jobs (cohort tables, statistics, figures, hand-off)."""
-    folder = Path(layout.cohort_log("x")).parent
-    records = [read_failure_record(p) for p in sorted(folder.glob("*.failure.json"))]
+    folder = Path(layout.cohort_log_folder())
+    records = [read_failure_record(p) for p in sorted(folder.glob(f"*{FAILURE_SUFFIX}"))]
     return [{"session": "", "rule": r["rule"], "reason": r["reason"]} for r in records if r]
 
 

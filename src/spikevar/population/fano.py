@@ -19,10 +19,11 @@ window ("series" x window):
   matched to one distribution); at each window units are discarded at random within each bin
   down to that common count, and the slope is computed on the kept units. The matching is
   repeated ``n_repeats`` times and averaged.
-* Intervals (``regression_ci_lo/hi``, ``ci_lo/hi``): 95% percentile intervals over ``n_boot``
-  hierarchical resamples (subject > session > unit within each group, the same units for every
-  condition of a group), each of which redoes the whole estimate: binning counts, common
-  distribution, ``n_repeats`` matchings averaged, slopes.
+* Intervals (``regression_ci_lo/hi``, ``ci_lo/hi``): ``n_boot`` resamples of whole subjects
+  within each group (a subject's units stay together; every condition and alignment of a group
+  uses the same draw), each of which redoes the whole estimate: binning counts, common
+  distribution, ``n_repeats`` matchings averaged, slopes. The interval is the estimate plus or
+  minus ``t_{G-1} sqrt(G / (G - 1))`` resampling SDs (:func:`few_cluster_interval`).
 """
 
 from __future__ import annotations
