@@ -27,3 +27,47 @@ class MeanMatchSettings:
             raise SpikevarInputError(
                 f"population.match_across is '{self.match_across}'.",
                 fix=f"use one of {', '.join(MATCH_SCOPES)}.", where="config")
+
+
+#: default config ``epochs``: named windows relative to each event, seconds
+DEFAULT_EPOCHS = {"baseline": (-0.3, 0.0), "response": (0.05, 0.35)}
+
+
+@dataclass(frozen=True)
+class SharedSettings:
+    """Config ``shared``: factor analysis of the trial x unit counts (shared variability)."""
+
+    #: largest number of factors the cross-validation tries
+    max_factors: int = 10
+    #: folds of the cross-validated likelihood that chooses the number of factors
+    cv_folds: int = 5
+    #: fewer trials than this in a condition: no factor analysis (NaN with a reason)
+    min_trials: int = 20
+    #: the epoch whose chosen number of factors is used in every window of shared_timecourse
+    factor_epoch: str = "response"
+    #: also compute the event-aligned shared_timecourse (a factor analysis in every window of
+    #: the config timecourse; the gain variance uses those windows either way)
+    timecourse: bool = True
+
+
+def epochs_from(value) -> dict[str, tuple[float, float]]:
+    """Config ``epochs`` (name -> [start_s, stop_s]) checked; empty or missing: the defaults."""
+    from spikevar.base.errors import SpikevarInputError
+
+    if not value:
+        return dict(DEFAULT_EPOCHS)
+    if not isinstance(value, dict):
+        raise SpikevarInputError("The config key 'epochs' is not a mapping of names to windows.",
+                                 fix="write e.g. epochs: {baseline: [-0.3, 0.0], response: "
+                                     "[0.05, 0.35]}", where="config")
+    out = {}
+    for name, window in value.items():
+        ok = isinstance(window, (list, tuple)) and len(window) == 2 and all(
+            isinstance(v, (int, float)) and not isinstance(v, bool) for v in window)
+        if not ok or not window[0] < window[1]:
+            raise SpikevarInputError(
+                f"The config epoch '{name}' is {window!r}.",
+                fix="give [start_s, stop_s] in seconds relative to the event, start before "
+                    "stop.", where="config")
+        out[str(name)] = (float(window[0]), float(window[1]))
+    return out
