@@ -12,7 +12,9 @@ from spikevar.pipeline.jobs import rule_job  # noqa: E402
 
 with rule_job(snakemake, step="group_summary") as sm:  # noqa: F821
     run_group_summary(units=sm.input.units, count_fano=sm.input.count_fano,
-                      recovery=sm.input.recovery, summary_out=sm.output.summary,
+                      recovery=sm.input.recovery,
+                      population_structure=sm.input.population_structure,
+                      gain_variance=sm.input.gain_variance, summary_out=sm.output.summary,
                       differences_out=sm.output.differences, seed=sm.params.seed,
                       settings=settings_from(BootstrapSettings, sm.params.bootstrap,
                                              section="bootstrap"))

@@ -21,9 +21,26 @@ CONFIG = yaml.safe_load((REPO / "config" / "config.yaml").read_text())
 
 
 def test_every_schema_section_has_one_settings_object():
-    sections = {k for k, v in SCHEMA["properties"].items() if v.get("type") == "object"}
+    sections = {k for k, v in SCHEMA["properties"].items()
+                if v.get("type") == "object" and k not in TOP_LEVEL}
     assert sections == set(SECTIONS)
     assert set(SCHEMA["properties"]) == set(SECTIONS) | set(TOP_LEVEL)
+
+
+def test_epoch_defaults_are_one_set():
+    from spikevar.population.settings import DEFAULT_EPOCHS, epochs_from
+
+    assert epochs_from(SCHEMA["properties"]["epochs"]["default"]) == DEFAULT_EPOCHS
+    assert epochs_from(CONFIG["epochs"]) == DEFAULT_EPOCHS
+    assert epochs_from(None) == DEFAULT_EPOCHS
+    with pytest.raises(SpikevarInputError, match="start before stop"):
+        epochs_from({"late": [0.3, 0.1]})
+
+
+def test_factor_epoch_must_name_an_epoch():
+    config = dict(CONFIG, shared=dict(CONFIG["shared"], factor_epoch="stimulus"))
+    with pytest.raises(SpikevarInputError, match="factor_epoch is 'stimulus'.*baseline"):
+        check_config(config)
 
 
 @pytest.mark.parametrize("section", sorted(SECTIONS))

@@ -77,13 +77,49 @@ def test_cohort_tables_with_metadata_and_csv(full_run):
     assert set(units["group"]) == {"standard", "enriched"}
     csv = pd.read_csv(out / "cohort" / "units.csv")
     assert len(csv) == len(units)
-    for table in ("count_fano", "fano_timecourse", "recovery", "population_fano",
-                  "group_summary", "group_differences", "failed_sessions"):
+    for table in ("count_fano", "recovery", "population_fano", "group_summary",
+                  "group_differences", "failed_sessions", "shared_variance",
+                  "population_structure", "gain_variance", "shared_over_time", "r_sc_by_rate"):
         assert (out / "cohort" / f"{table}.parquet").exists()
+    # tables that grow with pairs or windows are datasets: one file per session, read as one
+    for dataset in ("fano_timecourse", "pair_correlations", "shared_timecourse"):
+        folder = out / "cohort" / dataset
+        assert sorted(p.stem for p in folder.glob("*.parquet")) == sorted(sheet["session"])
+        table = pq.read_table(folder)
+        assert table.schema.names[:3] == ["session", "subject", "group"]
+        assert set(table.column("session").to_pylist()) <= set(sheet["session"])
     assert pq.read_table(out / "cohort" / "failed_sessions.parquet").num_rows == 0
     summary = pq.read_table(out / "cohort" / "group_summary.parquet").to_pandas()
     assert {"rate_hz", "isi_cv", "recovery_tau_s"} <= set(summary["metric"])
+    # the shared metrics are summarised per alignment x condition x epoch
+    shared = summary[summary["metric"] == "mean_r_sc"]
+    assert set(shared["epoch"]) == {"baseline", "response"}
+    assert (shared["alignment"] == "time").all()
+    assert set(summary.loc[summary["metric"] == "rate_hz", "epoch"]) == {""}
 
+
+def test_shared_variability_tables(full_run):
+    out, sheet, _ = full_run
+    no_events = sheet.loc[1, "session"]
+    for session in sheet["session"]:
+        folder = out / "sessions" / session
+        pairs = pq.read_table(folder / "pair_correlations.parquet").to_pandas()
+        structure = pq.read_table(folder / "population_structure.parquet").to_pandas()
+        shared = pq.read_table(folder / "shared_variance.parquet").to_pandas()
+        gain = pq.read_table(folder / "gain_variance.parquet").to_pandas()
+        over_time = pq.read_table(folder / "shared_timecourse.parquet").to_pandas()
+        if session == no_events:
+            assert len(pairs) == len(structure) == len(over_time) == 0
+            continue
+        # 3 units: 3 pairs per condition x epoch (2 x 2)
+        assert len(pairs) == 3 * 2 * 2
+        assert pairs["r_sc"].between(-1, 1).all()
+        assert len(structure) == 2 * 2 and len(shared) == 3 * 2 * 2
+        assert set(over_time["condition"]) == set(structure["condition"])
+        assert len(over_time) == 2 * 57
+        assert len(gain) == 3 * 2  # unit x condition
+        assert set(gain["unit"]) == set(shared["unit"]) == set(pairs["unit_a"]) | \
+            set(pairs["unit_b"])
 
 def test_handoff_package(full_run):
     import json

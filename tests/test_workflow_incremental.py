@@ -9,12 +9,14 @@ import pyarrow.parquet as pq
 import pytest
 
 from conftest import REPO, run_snakemake
+from spikevar.base.parquet_io import read_frame
 
 pytestmark = pytest.mark.workflow
 
-SESSION_RULES = {"ingest_session", "session_metrics", "session_timecourse", "session_recovery",
-                 "session_recovery_figure"}
-COHORT_RULES = {"cohort_table", "population_fano", "group_summary", "handoff", "cohort_figures"}
+SESSION_RULES = {"ingest_session", "session_metrics", "session_timecourse", "session_shared",
+                 "session_recovery", "session_recovery_figure"}
+COHORT_RULES = {"cohort_table", "cohort_dataset", "population_fano", "group_summary",
+                "shared_statistics", "handoff", "cohort_figures"}
 
 
 def planned_jobs(workdir, sheet, *extra, snakefile=None):
@@ -125,9 +127,29 @@ def test_adding_an_alignment_reruns_only_event_aligned_rules(finished):
     override.write_text("alignments: [time, lick_time]\n")
     jobs = rules_of(planned_jobs(work, sheet, "--configfile",
                                  str(REPO / "config" / "config.yaml"), str(override)))
-    assert {"session_timecourse", "population_fano"} <= jobs
+    # every event-aligned table gains the alignment: the time course, the shared variability
+    # and the group statistics of both; nothing per unit
+    assert {"session_timecourse", "session_shared", "population_fano", "shared_statistics",
+            "group_summary"} <= jobs
     assert not jobs & {"ingest_session", "session_metrics", "session_recovery",
-                       "session_recovery_figure", "group_summary"}
+                       "session_recovery_figure"}
+
+
+def test_changing_the_epochs_reruns_only_shared_variability(finished):
+    work, sheet = finished
+    override = work / "epochs.yaml"
+    override.write_text("epochs: {baseline: [-0.4, 0.0], response: [0.1, 0.4]}\n")
+    jobs = planned_jobs(work, sheet, "--configfile", str(REPO / "config" / "config.yaml"),
+                        str(override))
+    rules = rules_of(jobs)
+    assert {"session_shared", "group_summary", "shared_statistics", "cohort_figures"} <= rules
+    assert not rules & {"ingest_session", "session_metrics", "session_timecourse",
+                        "session_recovery", "session_recovery_figure", "population_fano"}
+    tables = {line for line in run_snakemake(
+        work, "-n", "--configfile", str(REPO / "config" / "config.yaml"), str(override),
+        "--config", f"sessions={sheet}", "results=out").stdout.splitlines()
+        if "wildcards: table=" in line}
+    assert not any("table=units" in t or "table=recovery" in t for t in tables)
 
 
 @pytest.mark.parametrize("module,reruns,keeps", [
@@ -138,7 +160,10 @@ def test_adding_an_alignment_reruns_only_event_aligned_rules(finished):
                                                     "group_summary"}),
     # a bootstrap change reruns the group statistics (and what reads them), nothing upstream
     ("cohort/bootstrap.py", {"group_summary"},
-     SESSION_RULES | {"cohort_table", "population_fano"}),
+     SESSION_RULES | {"cohort_table", "cohort_dataset", "population_fano"}),
+    # the factor analysis reruns the shared-variability job of each session and what reads it
+    ("population/factor_analysis.py", {"session_shared", "shared_statistics"},
+     SESSION_RULES - {"session_shared"} | {"population_fano"}),
 ])
 def test_code_change_reruns_rules_that_import_it(finished, tmp_path_factory, module, reruns,
                                                  keeps):
@@ -157,8 +182,13 @@ def test_code_change_reruns_rules_that_import_it(finished, tmp_path_factory, mod
 def test_two_runs_give_identical_tables(finished):
     work, sheet = finished
     run_snakemake(work, "--config", f"sessions={sheet}", "results=again")
-    for table in ("units", "count_fano", "fano_timecourse", "recovery", "population_fano",
-                  "group_summary", "group_differences"):
+    for table in ("units", "count_fano", "recovery", "population_fano", "group_summary",
+                  "group_differences", "shared_variance", "population_structure",
+                  "gain_variance", "shared_over_time", "r_sc_by_rate"):
         a = pq.read_table(work / "out" / "cohort" / f"{table}.parquet")
         b = pq.read_table(work / "again" / "cohort" / f"{table}.parquet")
         assert a.equals(b), table
+    for dataset in ("fano_timecourse", "pair_correlations", "shared_timecourse"):
+        a = read_frame(work / "out" / "cohort" / dataset)
+        b = read_frame(work / "again" / "cohort" / dataset)
+        pd.testing.assert_frame_equal(a, b)

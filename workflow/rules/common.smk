@@ -1,11 +1,13 @@
 # Shared set-up: the checked sessions sheet and small helpers for input functions.
 
 from spikevar.base.layout import (
+    COHORT_DATASETS,
     COHORT_FIGURES,
     FIGURE_FORMATS,
     NORMALISED_TABLES,
     SESSION_ID_PATTERN,
     SESSION_TABLES,
+    SHARED_TABLES,
     STATISTICS_TABLES,
     ResultsLayout,
 )

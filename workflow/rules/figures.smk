@@ -6,7 +6,16 @@ rule cohort_figures:
     input:
         **{
             t: LAYOUT.cohort_table(t)
-            for t in ("units", "count_fano", "recovery", "population_fano", "group_summary")
+            for t in (
+                "units",
+                "count_fano",
+                "recovery",
+                "population_fano",
+                "group_summary",
+                "population_structure",
+                "shared_over_time",
+                "r_sc_by_rate",
+            )
         },
     output:
         **{
@@ -19,7 +28,7 @@ rule cohort_figures:
         },
         **{f"{name}_svg": LAYOUT.cohort_figure(name, "svg") for name in COHORT_FIGURES},
     params:
-        code=code_fingerprint("figures.run", "base.layout"),
+        code=code_fingerprint("figures.run", "figures.shared", "base.layout"),
     log:
         **LAYOUT.cohort_logs("figures"),
     benchmark:

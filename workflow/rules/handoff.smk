@@ -3,7 +3,7 @@
 
 rule handoff:
     input:
-        tables=[LAYOUT.cohort_table(t) for t in (*SESSION_TABLES, *STATISTICS_TABLES)],
+        tables=[LAYOUT.cohort_output(t) for t in (*SESSION_TABLES, *STATISTICS_TABLES)],
         normalised=[
             LAYOUT.session_table(s, kind) for s in SESSIONS for kind in NORMALISED_TABLES
         ],

@@ -3,7 +3,7 @@
 
 rule population_fano:
     input:
-        LAYOUT.cohort_table("fano_timecourse"),
+        LAYOUT.cohort_dataset("fano_timecourse"),
     output:
         LAYOUT.cohort_table("population_fano"),
     params:
@@ -25,14 +25,17 @@ rule population_fano:
 
 rule group_summary:
     input:
-        **{t: LAYOUT.cohort_table(t) for t in ("units", "count_fano", "recovery")},
+        **{
+            t: LAYOUT.cohort_table(t)
+            for t in ("units", "count_fano", "recovery", "population_structure", "gain_variance")
+        },
     output:
         summary=LAYOUT.cohort_table("group_summary"),
         differences=LAYOUT.cohort_table("group_differences"),
     params:
         bootstrap=config["bootstrap"],
         seed=config["seed"],
-        code=code_fingerprint("cohort.run", "base.settings"),
+        code=code_fingerprint("cohort.run", "cohort.shared_stats", "base.settings"),
     log:
         **LAYOUT.cohort_logs("group_summary"),
     benchmark:
@@ -44,3 +47,28 @@ rule group_summary:
         runtime=30,
     script:
         "../../scripts/group_summary.py"
+
+
+# Reads the cohort datasets one session file at a time (rows grow with pairs and windows).
+rule shared_statistics:
+    input:
+        timecourse=LAYOUT.cohort_dataset("shared_timecourse"),
+        pairs=LAYOUT.cohort_dataset("pair_correlations"),
+    output:
+        over_time=LAYOUT.cohort_table("shared_over_time"),
+        by_rate=LAYOUT.cohort_table("r_sc_by_rate"),
+    params:
+        bootstrap=config["bootstrap"],
+        seed=config["seed"],
+        code=code_fingerprint("cohort.run", "cohort.shared_stats", "base.settings"),
+    log:
+        **LAYOUT.cohort_logs("shared_statistics"),
+    benchmark:
+        LAYOUT.cohort_benchmark("shared_statistics")
+    conda:
+        "../envs/spikevar.yaml"
+    resources:
+        mem_mb=4000,
+        runtime=30,
+    script:
+        "../../scripts/shared_statistics.py"

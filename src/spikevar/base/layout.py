@@ -8,6 +8,8 @@ session's outputs or a job's failure record. Names of tables and figures are lis
 
     {results}/sessions/{session}/{table}.parquet      normalised inputs and per-session tables
     {results}/cohort/{table}.parquet (+ .csv)         cohort tables
+    {results}/cohort/{dataset}/{session}.parquet      cohort datasets (rows grow with unit pairs
+                                                      or windows): one file per session
     {results}/figures/sessions/{session}_recovery.{png,svg}
     {results}/figures/{figure}.{png,svg}              cohort figures
     {results}/handoff/...  {results}/datapackage.json hand-off
@@ -27,11 +29,19 @@ SESSION_ID_PATTERN = r"[A-Za-z0-9][A-Za-z0-9_.-]*"
 #: normalised inputs written by ingestion
 NORMALISED_TABLES = ("spikes", "events")
 #: per-session tables that are concatenated into cohort tables
-SESSION_TABLES = ("units", "count_fano", "fano_timecourse", "recovery")
+#: per-session tables of shared variability (rule session_shared)
+SHARED_TABLES = ("pair_correlations", "shared_variance", "population_structure",
+                 "shared_timecourse", "gain_variance")
+SESSION_TABLES = ("units", "count_fano", "fano_timecourse", "recovery", *SHARED_TABLES)
+#: per-session tables whose rows grow with unit pairs or windows: their cohort form is a
+#: partitioned Parquet dataset (a folder with one file per session, readable as one table)
+COHORT_DATASETS = ("fano_timecourse", "pair_correlations", "shared_timecourse")
 #: cohort statistics tables
-STATISTICS_TABLES = ("population_fano", "group_summary", "group_differences")
+STATISTICS_TABLES = ("population_fano", "group_summary", "group_differences", "shared_over_time",
+                     "r_sc_by_rate")
 #: cohort figures (each written as PNG and SVG)
-COHORT_FIGURES = ("population_fano", "unit_metrics", "fano_by_window", "tau_vs_cv", "quality")
+COHORT_FIGURES = ("population_fano", "unit_metrics", "fano_by_window", "tau_vs_cv", "quality",
+                  "r_sc_vs_rate", "shared_over_time", "shared_structure")
 FIGURE_FORMATS = ("png", "svg")
 
 #: per-session steps in pipeline order: (rule, step name used for its log, first output)
@@ -39,6 +49,7 @@ SESSION_STEPS = (
     ("ingest_session", "ingest", "spikes"),
     ("session_metrics", "metrics", "units"),
     ("session_timecourse", "timecourse", "fano_timecourse"),
+    ("session_shared", "shared", "pair_correlations"),
     ("session_recovery", "recovery", "recovery"),
     ("session_recovery_figure", "recovery_figure", None),
 )
@@ -70,6 +81,18 @@ class ResultsLayout:
     # cohort
     def cohort_table(self, table: str, fmt: str = "parquet") -> str:
         return f"{self.root}/cohort/{table}.{fmt}"
+
+    def cohort_dataset(self, table: str) -> str:
+        """The folder of a cohort dataset (one ``{session}.parquet`` per session)."""
+        return f"{self.root}/cohort/{table}"
+
+    def cohort_part(self, table: str, session: str) -> str:
+        return f"{self.cohort_dataset(table)}/{session}.parquet"
+
+    def cohort_output(self, table: str) -> str:
+        """Where a cohort table lives: its dataset folder or its single file."""
+        return self.cohort_dataset(table) if table in COHORT_DATASETS else \
+            self.cohort_table(table)
 
     def cohort_figure(self, figure: str, fmt: str = "png") -> str:
         return f"{self.root}/figures/{figure}.{fmt}"

@@ -111,9 +111,11 @@ def _checked(read: Callable, path: str | os.PathLike, session: str | None):
             session=session, path=str(path)) from None
 
 
-def read_parquet_checked(path: str | os.PathLike, *, session: str | None = None) -> pa.Table:
-    """Read a Parquet file written by spikevar, refusing damaged files with a clear message."""
-    return _checked(pq.read_table, path, session)
+def read_parquet_checked(path: str | os.PathLike, *, session: str | None = None,
+                         columns: list[str] | None = None) -> pa.Table:
+    """Read a Parquet file written by spikevar (all or the named ``columns``), refusing
+    damaged files with a clear message."""
+    return _checked(lambda p: pq.read_table(p, columns=columns), path, session)
 
 
 def read_schema_checked(path: str | os.PathLike, *, session: str | None = None) -> pa.Schema:
@@ -147,6 +149,31 @@ def write_with_temporary(path: str | os.PathLike, write: Callable[[Path], None])
         raise
 
 
+def table_schema(path: str | os.PathLike) -> pa.Schema:
+    """The schema of a Parquet file, or of a dataset folder (its first part; all parts share
+    one schema)."""
+    path = Path(path)
+    if path.is_dir():
+        parts = sorted(p for p in path.glob("*.parquet") if not p.name.startswith("."))
+        if not parts:
+            return pa.schema([])
+        path = parts[0]
+    return read_schema_checked(path)
+
+
+def dataset_parts(path: str | os.PathLike) -> list[Path]:
+    """The files of a dataset folder (or the one file given), in name order."""
+    path = Path(path)
+    if not path.is_dir():
+        return [path]
+    return sorted(p for p in path.glob("*.parquet") if not p.name.startswith((".", "_")))
+
+
 def read_frame(path) -> pd.DataFrame:
-    """A checked Parquet read straight to a DataFrame."""
+    """A checked Parquet read straight to a DataFrame (a file or a dataset folder)."""
+    parts = dataset_parts(path)
+    if Path(path).is_dir():
+        if not parts:
+            return pd.DataFrame()
+        return pa.concat_tables([read_parquet_checked(p) for p in parts]).to_pandas()
     return read_parquet_checked(path).to_pandas()

@@ -20,6 +20,21 @@ EDEN = "Eden & Kramer 2010, J Neurosci Methods 190:149"
 BROWN = "Brown et al. 2002, Neural Comput 14:325"
 CHURCH = "Churchland et al. 2010, Nat Neurosci 13:369"
 SARAV = "Saravanan, Berman & Sober 2020, Neurons Behav Data Anal Theory 3(5)"
+COHEN = "Cohen & Kohn 2011, Nat Neurosci 14:811"
+WILL = "Williamson et al. 2016, PLoS Comput Biol 12:e1005141"
+UMAK = "Umakantha et al. 2021, Neuron 109:2740"
+GORIS = "Goris, Movshon & Simoncelli 2014, Nat Neurosci 17:858"
+ROCHA = "de la Rocha et al. 2007, Nature 448:802"
+
+_STRATUM = {
+    "alignment": ("event-table column the trials are aligned on", "", "config alignments"),
+    "condition": ("condition label of the trials", "", ""),
+    "epoch": ("named window relative to the event", "", "config epochs"),
+    "n_trials": ("trials of the condition whose windows all lie inside the recording", "count",
+                 ""),
+}
+_BOOT = ("95% interval: subjects, then sessions within them, resampled (each session "
+         "summarised first)", "metric's unit", SARAV)
 
 TABLES: dict[str, dict[str, tuple[str, str, str]]] = {
     "units": {
@@ -141,7 +156,10 @@ TABLES: dict[str, dict[str, tuple[str, str, str]]] = {
     "group_summary": {
         "metric": ("unit metric summarised", "", ""),
         "metric_label": ("readable metric name with unit", "", ""),
-        "n_units": ("units with a value", "count", ""),
+        "alignment": ("alignment of a shared-variability metric ('' for unit metrics)", "", ""),
+        "condition": ("condition of a shared-variability metric ('' for unit metrics)", "", ""),
+        "epoch": ("epoch of a session metric ('' for unit metrics and gain_variance)", "", ""),
+        "n_units": ("units with a value (for session metrics: sessions)", "count", ""),
         "n_sessions": ("sessions contributing", "count", ""),
         "n_subjects": ("subjects contributing", "count", ""),
         "mean": ("mean over units", "metric's unit", ""),
@@ -160,6 +178,9 @@ TABLES: dict[str, dict[str, tuple[str, str, str]]] = {
         "metric": ("unit metric compared", "", ""),
         "group_a": ("first group", "", ""),
         "group_b": ("second group", "", ""),
+        "alignment": ("alignment of a shared-variability metric ('' for unit metrics)", "", ""),
+        "condition": ("condition of a shared-variability metric ('' for unit metrics)", "", ""),
+        "epoch": ("epoch of a session metric ('' for unit metrics and gain_variance)", "", ""),
         "diff_mean": ("mean(a) - mean(b)", "metric's unit", ""),
         "diff_mean_ci_lo": ("95% hierarchical-bootstrap interval", "metric's unit", SARAV),
         "diff_mean_ci_hi": ("95% hierarchical-bootstrap interval", "metric's unit", SARAV),
@@ -178,6 +199,86 @@ TABLES: dict[str, dict[str, tuple[str, str, str]]] = {
         "few_subjects": ("a group has fewer than 5 subjects: bootstrap intervals and p_mean / "
                          "p_median are too narrow / too small there; use p_permutation", "", ""),
         "difference_reason": ("why values are NaN ('' if defined)", "", ""),
+    },
+    "pair_correlations": {
+        "unit_a": ("first unit of the pair (text id)", "", ""),
+        "unit_b": ("second unit of the pair", "", ""),
+        **_STRATUM,
+        "r_sc": ("noise correlation: Pearson correlation of the two units' trial counts in the "
+                 "epoch, within the condition", "", COHEN),
+        "geo_mean_rate_hz": ("geometric mean of the two units' mean rates in the epoch", "Hz",
+                             ROCHA),
+        "r_sc_reason": ("why r_sc is NaN ('' if defined)", "", ""),
+    },
+    "shared_variance": {
+        "unit": ("unit id", "", ""),
+        **_STRATUM,
+        "n_factors": ("factors of the condition x epoch factor analysis (chosen by 5-fold "
+                      "cross-validated likelihood)", "count", WILL),
+        "shared_variance": ("diagonal of the shared covariance L L^T of the unit's counts",
+                            "count^2", WILL),
+        "private_variance": ("private (independent) variance Psi of the unit's counts",
+                             "count^2", WILL),
+        "percent_shared": ("100 shared / (shared + private)", "%", WILL),
+        "shared_reason": ("why the values are NaN ('' if defined)", "", ""),
+    },
+    "population_structure": {
+        **_STRATUM,
+        "n_units": ("units whose counts vary (entered the factor analysis)", "count", ""),
+        "n_factors": ("factors chosen by cross-validated likelihood", "count", WILL),
+        "dim_shared": ("eigenvectors of L L^T needed for 95% of the shared variance", "count",
+                       WILL),
+        "percent_shared_mean": ("mean percent_shared over the units", "%", WILL),
+        "mean_r_sc": ("mean r_sc over the pairs with a value", "", COHEN),
+        "loading_similarity": ("1 - n var(w) of the unit-norm first loading vector w: 1 when "
+                               "every unit loads alike, 0 when one unit carries it", "", UMAK),
+        "structure_reason": ("why values are NaN or 0 ('' if defined)", "", ""),
+    },
+    "shared_timecourse": {
+        **_STRATUM,
+        "time_s": ("window centre from the alignment event", "s", ""),
+        "window_s": ("window width", "s", "config timecourse"),
+        "n_units": ("units whose counts vary in the window", "count", ""),
+        "n_factors": ("factors used in every window (config shared.factor_epoch: by default the "
+                      "largest number chosen in the condition's epochs)",
+                      "count", WILL),
+        "mean_r_sc": ("mean r_sc over pairs in the window", "", COHEN),
+        "percent_shared_mean": ("mean percent shared over units in the window", "%", WILL),
+    },
+    "gain_variance": {
+        "unit": ("unit id", "", ""),
+        **_STRATUM,
+        "n_windows": ("time-course windows with a positive mean count used in the fit",
+                      "count", ""),
+        "gain_variance": ("sigma2_G of the modulated Poisson model, least squares of "
+                          "var - mean on mean^2 across the condition's windows", "", GORIS),
+        "fit_note": ("why gain_variance is NaN ('' if defined)", "", ""),
+    },
+    "shared_over_time": {
+        "alignment": _STRATUM["alignment"],
+        "condition": _STRATUM["condition"],
+        "time_s": ("window centre from the alignment event", "s", ""),
+        "window_s": ("window width", "s", ""),
+        "mean_r_sc": ("mean over sessions of the session's mean r_sc", "", COHEN),
+        "mean_r_sc_ci_lo": _BOOT, "mean_r_sc_ci_hi": _BOOT,
+        "n_sessions_mean_r_sc": ("sessions with a value", "count", ""),
+        "percent_shared_mean": ("mean over sessions of the session's mean percent shared", "%",
+                                WILL),
+        "percent_shared_mean_ci_lo": _BOOT, "percent_shared_mean_ci_hi": _BOOT,
+        "n_sessions_percent_shared_mean": ("sessions with a value", "count", ""),
+        "n_subjects": ("subjects of the group", "count", ""),
+    },
+    "r_sc_by_rate": {
+        "alignment": _STRATUM["alignment"],
+        "condition": _STRATUM["condition"],
+        "epoch": _STRATUM["epoch"],
+        "rate_lo_hz": ("lower edge of the geometric-mean-rate bin (octaves)", "Hz", ROCHA),
+        "rate_hi_hz": ("upper edge of the bin (inf: open)", "Hz", ""),
+        "r_sc": ("mean over sessions of each session's mean r_sc in the bin", "", COHEN),
+        "r_sc_ci_lo": _BOOT, "r_sc_ci_hi": _BOOT,
+        "n_sessions_r_sc": ("sessions with pairs in the bin", "count", ""),
+        "n_subjects": ("subjects of the group", "count", ""),
+        "n_pairs": ("pairs in the bin, all sessions", "count", ""),
     },
     "failed_sessions": {
         "session": ("session that failed", "", ""),

@@ -71,8 +71,9 @@ def _pct(x, q):
         return np.nanpercentile(x, q) if np.isfinite(x).any() else np.nan
 
 
-def group_summary(frame: pd.DataFrame, *, n_boot: int,
-                  seed: int) -> tuple[pd.DataFrame, pd.DataFrame]:
+def group_summary(frame: pd.DataFrame, *, n_boot: int, seed: int | None = None,
+                  metrics: dict[str, str] | None = None,
+                  rng: np.random.Generator | None = None) -> tuple[pd.DataFrame, pd.DataFrame]:
     """Per metric x group: n, mean, median with 95% hierarchical-bootstrap intervals; per
     metric x pair of groups: differences of means and medians with intervals and p-values.
 
@@ -88,11 +89,15 @@ def group_summary(frame: pd.DataFrame, *, n_boot: int,
     exact when the arrangements are few; :mod:`spikevar.cohort.permutation`) with its smallest
     attainable value, and ``few_subjects`` flags groups with fewer than ``FEW_SUBJECTS``
     subjects. ``n_tau_at_bound`` counts units whose tau ended at a bound (left out of tau).
+
+    ``metrics`` (column -> label; default :data:`METRICS`) and ``rng`` (default: one seeded by
+    ``seed``) let other tables reuse the same summary; a frame with one row per session (a
+    population statistic) is resampled subject > session, its single "unit" kept.
     """
-    rng = np.random.default_rng(seed)
+    rng = np.random.default_rng(seed) if rng is None else rng
     summary, diffs = [], []
     groups = sorted(frame["group"].astype(str).unique())
-    for metric, label in METRICS.items():
+    for metric, label in (METRICS if metrics is None else metrics).items():
         boots = {}
         for group in groups:
             part = frame[(frame["group"].astype(str) == group) & frame[metric].notna()]

@@ -10,10 +10,14 @@ from importlib import metadata as importlib_metadata
 from pathlib import Path
 
 import pyarrow as pa
-import pyarrow.parquet as pq
 
 from spikevar import __version__
-from spikevar.base.parquet_io import read_metadata, write_with_temporary
+from spikevar.base.parquet_io import (
+    dataset_parts,
+    read_metadata,
+    table_schema,
+    write_with_temporary,
+)
 from spikevar.cohort.data_dictionary import describe, to_markdown
 
 
@@ -32,8 +36,9 @@ def write_atomic_text(path: Path, text: str) -> None:
 
 
 def write_data_dictionary(tables: dict[str, str], *, markdown: Path, json_path: Path) -> None:
-    """Data dictionary (Markdown + JSON) for the columns of the Parquet ``tables`` given."""
-    columns = {name: pq.read_schema(path).names for name, path in tables.items()}
+    """Data dictionary (Markdown + JSON) for the columns of the Parquet ``tables`` given
+    (files or dataset folders)."""
+    columns = {name: table_schema(path).names for name, path in tables.items()}
     entries = {name: {c: dict(zip(("meaning", "unit", "method"), describe(name, c),
                                   strict=True)) for c in cols} for name, cols in columns.items()}
     write_atomic_text(markdown, to_markdown(columns))
@@ -41,16 +46,21 @@ def write_data_dictionary(tables: dict[str, str], *, markdown: Path, json_path: 
 
 
 def write_datapackage(tables: dict[str, str], *, root: Path, path: Path) -> None:
-    """A Frictionless Data Package descriptor listing each table with its schema."""
+    """A Frictionless Data Package descriptor listing each table with its schema.
+
+    A dataset folder is one resource whose ``path`` lists its part files (the Data Package
+    form of one table stored in several files of one schema).
+    """
     resources = []
     for name, table_path in tables.items():
-        schema = pq.read_schema(table_path)
+        schema = table_schema(table_path)
+        parts = [str(p.resolve().relative_to(root.resolve())) for p in dataset_parts(table_path)]
         fields = [{"name": f.name, "type": _frictionless_type(f.type),
                    "description": describe(name, f.name)[0],
                    **({"unit": describe(name, f.name)[1]} if describe(name, f.name)[1] else {})}
                   for f in schema]
         resources.append({"name": name.replace("_", "-"),
-                          "path": str(Path(table_path).resolve().relative_to(root.resolve())),
+                          "path": parts if Path(table_path).is_dir() else parts[0],
                           "format": "parquet", "mediatype": "application/vnd.apache.parquet",
                           "schema": {"fields": fields}})
     descriptor = {"name": "spikevar-cohort", "title": "spikevar cohort tables",

@@ -3,6 +3,8 @@
 from __future__ import annotations
 
 import os
+import shutil
+import tempfile
 from pathlib import Path
 
 import pyarrow as pa
@@ -102,6 +104,58 @@ def assemble_cohort_table(inputs: dict[str, str], metadata: dict[str, dict[str, 
         if tmp_csv is not None:
             tmp_csv.unlink(missing_ok=True)
     return rows
+
+
+def assemble_cohort_dataset(inputs: dict[str, str], metadata: dict[str, dict[str, str]], *,
+                            meta_columns: list[str], output: str | os.PathLike) -> int:
+    """Write a partitioned cohort dataset: ``output/{session}.parquet`` per session.
+
+    Every file has the sheet's metadata columns in front and one common schema, so pyarrow,
+    pandas or DuckDB read the folder as one table (``pq.read_table(folder)``). One session is
+    in memory at a time; the folder is built under a temporary name and renamed when
+    complete, so readers never see a half-written dataset.
+
+    Returns
+    -------
+    int
+        Rows written.
+    """
+    output = Path(output)
+    output.parent.mkdir(parents=True, exist_ok=True)
+    sessions = list(inputs)
+    schemas = [read_schema_checked(inputs[s], session=s) for s in sessions]
+    probe = [_with_metadata(sch.empty_table(), metadata[s], meta_columns)
+             for s, sch in zip(sessions, schemas, strict=True)]
+    schema = _unify(probe) if probe else pa.schema([(c, pa.string()) for c in meta_columns])
+    schema = schema.with_metadata({METADATA_KEY: b'{"kind": "cohort dataset part"}'})
+    tmp = Path(tempfile.mkdtemp(prefix=f".{output.name}.", suffix=".tmp", dir=output.parent))
+    rows = 0
+    try:
+        for session in sessions:
+            table = read_parquet_checked(inputs[session], session=session)
+            table = _conform(_with_metadata(table, metadata[session], meta_columns), schema)
+            part = tmp / f"{session}.parquet"
+            pq.write_table(table.replace_schema_metadata(schema.metadata), part,
+                           compression="zstd")
+            rows += table.num_rows
+        os.chmod(tmp, 0o777 & ~_umask())
+        if output.exists():
+            shutil.rmtree(output)
+        os.replace(tmp, output)
+    except OSError as exc:
+        if is_disk_full(exc):
+            raise OutputSpaceError(output) from None
+        raise
+    finally:
+        if tmp.exists():
+            shutil.rmtree(tmp, ignore_errors=True)
+    return rows
+
+
+def _umask() -> int:
+    current = os.umask(0)
+    os.umask(current)
+    return current
 
 
 FAILED_SCHEMA = pa.schema([("session", pa.string()), ("rule", pa.string()),

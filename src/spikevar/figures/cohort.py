@@ -202,3 +202,12 @@ def draw_cohort_figures(*, tables: dict[str, pd.DataFrame], frame: pd.DataFrame,
     fano_window_figure(tables["count_fano"], tables["units"], outputs["fano_by_window"])
     tau_cv_figure(frame, outputs["tau_vs_cv"])
     quality_figure(tables["units"], tables["recovery"], outputs["quality"])
+    from spikevar.figures.shared import (
+        r_sc_rate_figure,
+        shared_structure_figure,
+        shared_time_figure,
+    )
+
+    r_sc_rate_figure(tables["r_sc_by_rate"], outputs["r_sc_vs_rate"])
+    shared_time_figure(tables["shared_over_time"], outputs["shared_over_time"])
+    shared_structure_figure(tables["population_structure"], outputs["shared_structure"])

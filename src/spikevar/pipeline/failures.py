@@ -13,13 +13,18 @@ import logging
 from pathlib import Path
 
 from spikevar.base.layout import (
+    COHORT_DATASETS,
     FAILURE_SUFFIX,
     SESSION_STEPS,
     SESSION_TABLES,
     ResultsLayout,
     failure_record_path,
 )
-from spikevar.cohort.tables import assemble_cohort_table, write_failed_sessions
+from spikevar.cohort.tables import (
+    assemble_cohort_dataset,
+    assemble_cohort_table,
+    write_failed_sessions,
+)
 from spikevar.pipeline.jobs import read_failure_record
 
 log = logging.getLogger(__name__)
@@ -73,8 +78,12 @@ def write_partial_cohort(layout: ResultsLayout | str | Path, sessions: list[str]
     out.mkdir(parents=True, exist_ok=True)
     for table in SESSION_TABLES:
         inputs = {s: layout.session_table(s, table) for s in complete}
-        assemble_cohort_table(inputs, metadata["rows"], meta_columns=metadata["columns"],
-                              output=out / f"{table}.parquet")
+        if table in COHORT_DATASETS:
+            assemble_cohort_dataset(inputs, metadata["rows"], meta_columns=metadata["columns"],
+                                    output=out / table)
+        else:
+            assemble_cohort_table(inputs, metadata["rows"], meta_columns=metadata["columns"],
+                                  output=out / f"{table}.parquet")
     write_failed_sessions(failed, out / "failed_sessions.parquet")
     for f in failed:
         log.error("spikevar: session %s failed in %s: %s", f["session"], f["rule"], f["reason"])

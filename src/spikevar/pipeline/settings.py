@@ -16,7 +16,7 @@ from spikevar.cohort.settings import BootstrapSettings, CohortSettings
 from spikevar.figures.settings import FigureSettings
 from spikevar.inputs.settings import ColumnNames
 from spikevar.metrics.settings import MetricSettings, SlidingWindows
-from spikevar.population.settings import MeanMatchSettings
+from spikevar.population.settings import MeanMatchSettings, SharedSettings, epochs_from
 from spikevar.recovery.settings import RecoverySettings
 
 #: config section -> the one settings dataclass that reads it
@@ -29,9 +29,11 @@ SECTIONS = {
     "cohort": CohortSettings,
     "population": MeanMatchSettings,
     "bootstrap": BootstrapSettings,
+    "shared": SharedSettings,
 }
 #: top-level keys that are single values, not sections
-TOP_LEVEL = ("sessions", "results", "time_unit", "sampling_rate_hz", "seed", "alignments")
+TOP_LEVEL = ("sessions", "results", "time_unit", "sampling_rate_hz", "seed", "alignments",
+             "epochs")
 
 
 def check_config(config: Mapping) -> dict:
@@ -48,4 +50,12 @@ def check_config(config: Mapping) -> dict:
                                      fix=f"write '{name}:' followed by indented 'key: value' "
                                          "lines.", where="config")
         built[name] = settings_from(cls, section, section=name)
+    built["epochs"] = epochs_from(config.get("epochs"))
+    factor_epoch = built["shared"].factor_epoch
+    if factor_epoch != "largest" and factor_epoch not in built["epochs"]:
+        raise SpikevarInputError(
+            f"shared.factor_epoch is '{factor_epoch}', which is not one of the config epochs.",
+            fix=f"use 'largest' or one of {', '.join(built['epochs'])}, or add an epoch of "
+                "that name.",
+            where="config")
     return built

@@ -43,8 +43,11 @@ class SharedSettings:
     cv_folds: int = 5
     #: fewer trials than this in a condition: no factor analysis (NaN with a reason)
     min_trials: int = 20
-    #: the epoch whose chosen number of factors is used in every window of shared_timecourse
-    factor_epoch: str = "response"
+    #: the number of factors used in every window of shared_timecourse: "largest" (the largest
+    #: number chosen in any epoch of the condition) or the name of one epoch. An epoch where
+    #: the event quenches shared variability chooses 0 factors, and 0 factors would make the
+    #: percent shared of every window 0 by construction, so the default is "largest".
+    factor_epoch: str = "largest"
     #: also compute the event-aligned shared_timecourse (a factor analysis in every window of
     #: the config timecourse; the gain variance uses those windows either way)
     timecourse: bool = True

@@ -13,6 +13,7 @@ import zlib
 import numpy as np
 import pandas as pd
 
+from spikevar.base.layout import SHARED_TABLES
 from spikevar.base.spike_arrays import SpikeArrays
 from spikevar.metrics.settings import SlidingWindows
 from spikevar.population.factor_analysis import (
@@ -31,8 +32,7 @@ from spikevar.population.noise_correlation import (
 )
 from spikevar.population.settings import SharedSettings
 
-TABLES = ("pair_correlations", "shared_variance", "population_structure", "shared_timecourse",
-          "gain_variance")
+TABLES = SHARED_TABLES
 COLUMNS = {
     "pair_correlations": ["unit_a", "unit_b", "alignment", "condition", "epoch", "n_trials",
                           "r_sc", "geo_mean_rate_hz", "r_sc_reason"],
@@ -121,12 +121,16 @@ def shared_tables(spikes: SpikeArrays, events: pd.DataFrame, *,
                 for frame, name in ((pairs, "pair_correlations"), (per_unit, "shared_variance"),
                                     (structure, "population_structure")):
                     frames[name].append(frame.assign(**key, epoch=epoch))
-                if epoch == settings.factor_epoch:
-                    k_fixed = int(structure["n_factors"].iloc[0])
+                k_epoch = int(structure["n_factors"].iloc[0])
+                if settings.factor_epoch == "largest":
+                    k_fixed = max(k_fixed, k_epoch)
+                elif epoch == settings.factor_epoch:
+                    k_fixed = k_epoch
             tc = counts[:, :, len(names):]
             if settings.timecourse and len(tc_left):
                 frames["shared_timecourse"].append(
-                    _timecourse(tc, tc_centre, windows.width_s, k_fixed).assign(**key))
+                    _timecourse(tc, tc_centre, windows.width_s, k_fixed,
+                                min_trials=settings.min_trials).assign(**key))
             frames["gain_variance"].append(_gain(tc, labels).assign(**key))
     out = {}
     for name in TABLES:
@@ -183,9 +187,11 @@ def _epoch_tables(x: np.ndarray, labels: np.ndarray, width_s: float,
 
 
 def _timecourse(counts: np.ndarray, centres: np.ndarray, width_s: float,
-                k: int) -> pd.DataFrame:
+                k: int, *, min_trials: int) -> pd.DataFrame:
     """Mean r_sc and mean percent shared per window, ``k`` factors in every window.
 
+    With fewer than ``min_trials`` trials the percent shared is NaN (as in
+    population_structure), the mean r_sc is still given.
     Each window's fit starts from the previous window's when the same units vary (sliding
     windows overlap, so consecutive optima are close).
     """
@@ -201,7 +207,7 @@ def _timecourse(counts: np.ndarray, centres: np.ndarray, width_s: float,
         r, varies = count_correlations(x)
         mean_r[w] = mean_pair_correlation(r)
         used[w] = int(varies.sum())
-        if used[w] < 2:
+        if used[w] < 2 or n_trials < min_trials:
             continue
         kk = min(k, used[w] - 1)
         xv = x[:, varies] - x[:, varies].mean(axis=0)

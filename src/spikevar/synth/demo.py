@@ -4,7 +4,10 @@ SYNTHETIC DATA. The "Brackenfold flash cohort" does not exist: six fictional mic
 ``standard`` and ``enriched`` housing), two sessions each, twenty units per session, shown
 ``dim`` and ``bright`` light flashes. Each unit is a rate-modulated renewal process from
 :mod:`spikevar.synth.simulate` (exponential-recovery, gamma or dead-time intervals) with
-flash-locked responses and trial-to-trial gain variability. Sessions are written in mixed formats
+flash-locked responses and trial-to-trial gain variability. In the ``standard`` group the units
+of a session also share one fluctuating gain between flashes that each flash quenches while its
+response lasts, so shared variability (noise correlations, percent shared) drops at flash onset;
+in the ``enriched`` group that shared gain is weak. Sessions are written in mixed formats
 and time units (CSV in s, gzipped TSV in ms, Parquet in s, CSV in samples at 30 kHz, NWB) so the
 demo exercises every reader.
 
@@ -30,6 +33,8 @@ SUBJECTS = {
 FORMATS = ("csv_s", "tsvgz_ms", "parquet_s", "csv_samples", "nwb")
 SAMPLING_RATE_HZ = 30_000.0
 CONDITIONS = {"dim": 12.0, "bright": 30.0}  # added peak rate of the flash response, Hz
+#: CV of the gain the units of one session share between flashes, per group (by design)
+SHARED_GAIN_CV = {"standard": 0.45, "enriched": 0.12}
 
 
 @dataclass(frozen=True)
@@ -63,6 +68,8 @@ def simulate_session(rng: np.random.Generator, *, group: str, size: DemoSize):
     onsets = onsets[onsets < size.duration_s - 2.0]
     conditions = rng.choice(list(CONDITIONS), size=len(onsets))
     grid = np.arange(0.0, size.duration_s + 1e-3, 1e-3)
+    shape = 1.0 / SHARED_GAIN_CV.get(group, 0.0) ** 2 if SHARED_GAIN_CV.get(group) else None
+    shared = rng.gamma(shape, 1.0 / shape, len(onsets) + 1) if shape else None
     units, times = [], []
     for u in range(size.units_per_session):
         model = _unit_model(rng, group)
@@ -73,7 +80,7 @@ def simulate_session(rng: np.random.Generator, *, group: str, size: DemoSize):
         amplitudes = np.array([CONDITIONS[c] for c in conditions]) * rng.uniform(0.1, 1.5)
         rate = simulate.event_locked_rate(grid, event_times_s=onsets,
                                           event_amplitudes_hz=amplitudes, baseline_hz=baseline,
-                                          gain_cv=gain, rng=rng)
+                                          gain_cv=gain, rng=rng, shared_gain=shared)
         train = simulate.modulated_renewal_train(model, grid_s=grid, rate_hz=rate, rng=rng)
         units.append(np.full(len(train), f"u{u + 1:02d}"))
         times.append(train)

@@ -197,6 +197,7 @@ def event_locked_rate(
     response_latency_s: float = 0.05,
     response_width_s: float = 0.15,
     driven_gain_cv: float | None = None,
+    shared_gain: np.ndarray | None = None,
 ) -> np.ndarray:
     """Firing rate with event-locked responses and trial-to-trial gain variability.
 
@@ -212,6 +213,11 @@ def event_locked_rate(
     -----
     For Poisson spiking and a window of mean count mu within one gain stretch, the count Fano
     factor is ``1 + gain_cv**2 * mu`` before the event (a doubly stochastic Poisson process).
+
+    ``shared_gain``: one factor per inter-event stretch (``len(event_times_s) + 1``, in event
+    order) that also multiplies the baseline, except while the event response lasts (the event
+    quenches it). Giving several units the same array makes their counts covary before the
+    event (shared variability) and much less during the response.
     """
     grid_s = np.asarray(grid_s, dtype=float)
     event_times_s = np.asarray(event_times_s, dtype=float)
@@ -237,7 +243,13 @@ def event_locked_rate(
     has = last >= 0
     lag = np.where(has, grid_s - event_times_s[np.maximum(last, 0)], -1.0)
     phase = (lag - response_latency_s) / (2 * response_width_s)
-    bump = np.where((phase >= 0) & (phase <= 1), 0.5 * (1 - np.cos(2 * np.pi * phase)), 0.0)
+    inside = (phase >= 0) & (phase <= 1)
+    bump = np.where(inside, 0.5 * (1 - np.cos(2 * np.pi * phase)), 0.0)
+    if shared_gain is not None:
+        shared = np.asarray(shared_gain, dtype=float)
+        if len(shared) != n_stretch:
+            raise ValueError(f"shared_gain needs {n_stretch} values, one per stretch")
+        rate = rate * np.where(has & inside, 1.0, shared[stretch])
     rate = rate + np.where(has, amplitudes[np.maximum(last, 0)] * driven[np.maximum(last, 0)],
                            0.0) * bump
     return rate
