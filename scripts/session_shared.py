@@ -9,7 +9,7 @@ from spikevar.base.layout import SHARED_TABLES  # noqa: E402
 from spikevar.base.settings import settings_from  # noqa: E402
 from spikevar.metrics.settings import SlidingWindows  # noqa: E402
 from spikevar.pipeline.jobs import rule_job  # noqa: E402
-from spikevar.population.run import run_session_shared  # noqa: E402
+from spikevar.population.run_shared import run_session_shared  # noqa: E402
 from spikevar.population.settings import SharedSettings, epochs_from  # noqa: E402
 
 with rule_job(snakemake, step="shared") as sm:  # noqa: F821

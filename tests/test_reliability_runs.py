@@ -20,8 +20,9 @@ from spikevar.metrics.isi import unit_isi_table
 from spikevar.recovery.fit import Intervals, fit_all
 from spikevar.synth import simulate
 
-TABLES = ("units", "count_fano", "fano_timecourse", "recovery", "population_fano",
-          "group_summary", "group_differences")
+TABLES = ("units", "count_fano", "recovery", "population_fano", "group_summary",
+          "group_differences", "population_structure", "shared_over_time")
+DATASETS = ("fano_timecourse", "pair_correlations")
 
 
 @pytest.mark.workflow
@@ -64,6 +65,10 @@ def test_killed_run_resumes_to_identical_outputs_with_read_only_inputs(tiny_coho
             a = pq.read_table(ref / "out" / "cohort" / f"{table}.parquet")
             b = pq.read_table(work / "out" / "cohort" / f"{table}.parquet")
             assert a.equals(b), table
+        for dataset in DATASETS:
+            a = pq.read_table(ref / "out" / "cohort" / dataset)
+            b = pq.read_table(work / "out" / "cohort" / dataset)
+            assert a.equals(b), dataset
     finally:
         cohort.chmod(stat.S_IRWXU)
         for p in cohort.iterdir():

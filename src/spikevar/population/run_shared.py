@@ -1,0 +1,47 @@
+"""Entry point of the session_shared rule: one session's spikes and events in, its five
+shared-variability tables out."""
+
+from __future__ import annotations
+
+import logging
+from dataclasses import asdict
+
+from spikevar.base.parquet_io import (
+    frame_to_arrow,
+    read_metadata,
+    read_parquet_checked,
+    write_parquet_atomic,
+)
+from spikevar.base.spike_arrays import load_spikes, recording_span
+from spikevar.metrics.session import alignment_times
+from spikevar.population.shared import TABLES, session_seed, shared_tables
+
+log = logging.getLogger(__name__)
+
+
+def run_session_shared(*, session: str, spikes_path, events_path, outputs: dict[str, str],
+                       alignments: list[str], event_time_column: str,
+                       epochs: dict[str, tuple[float, float]], windows, settings,
+                       seed: int, span: tuple[float, float] | None = None) -> None:
+    """Read a session's spikes and events, write its five shared-variability tables."""
+    spikes = load_spikes(spikes_path, session=session)
+    events = read_parquet_checked(events_path, session=session).to_pandas()
+    record = read_metadata(events_path)
+    times = alignment_times(events, list(alignments), event_time_column=event_time_column,
+                            seconds_per_unit=float(record.get("seconds_per_unit", 1.0)),
+                            session=session, path=record.get("source_path") or events_path)
+    whole = recording_span(spikes, span)
+    tables = shared_tables(spikes, events, alignments=times, epochs=epochs, windows=windows,
+                           settings=settings, span=tuple(whole),
+                           rng=session_seed(seed, session))
+    meta = {"session": session, "shared": asdict(settings), "timecourse": asdict(windows),
+            "epochs": {k: list(v) for k, v in epochs.items()}, "alignments": list(times),
+            "seed": seed, "span_s": whole, "span_declared": span is not None}
+    for name in TABLES:
+        frame = tables[name]
+        frame.insert(0, "session", session)
+        write_parquet_atomic(frame_to_arrow(frame), outputs[name], metadata=meta)
+    structure = tables["population_structure"]
+    log.info("session %s: %d unit pairs, %d condition x epoch factor analyses (n_factors %s)",
+             session, len(tables["pair_correlations"]), len(structure),
+             ", ".join(map(str, structure["n_factors"].tolist())) or "none")
