@@ -144,6 +144,32 @@ def test_handoff_package(full_run):
     assert "`isi_lvr`" in dictionary and "Shinomoto" in dictionary
 
 
+def test_datapackage_passes_the_standards_validator(full_run):
+    # the Frictionless validator (the Data Package standard's reference implementation)
+    from frictionless import validate
+
+    out, sheet, _ = full_run
+    report = validate(str(out / "datapackage.json"))
+    invalid = {t.name: [e.message for e in t.errors][:3] for t in report.tasks if not t.valid}
+    assert report.valid, invalid
+    import json
+
+    package = json.loads((out / "datapackage.json").read_text())
+    rows = {}
+    for task in report.tasks:
+        resource = next(r for r in package["resources"] if r["name"] == task.name)
+        key = resource.get("dataset", task.name)
+        rows[key] = rows.get(key, 0) + (task.stats.get("rows") or 0)
+        schema = resource["schema"]
+        if isinstance(schema, str):
+            schema = json.loads((out / schema).read_text())
+        assert all(f["description"] for f in schema["fields"]), task.name
+    # every file of a dataset is its own resource: the validator read every row of the table
+    for dataset in ("fano_timecourse", "pair_correlations", "shared_timecourse"):
+        assert rows[dataset] == pq.read_table(out / "cohort" / dataset).num_rows, dataset
+    assert rows["units"] == pq.read_table(out / "cohort" / "units.parquet").num_rows
+
+
 def test_every_written_file_is_declared_and_every_declared_file_written(full_run):
     out, _, _ = full_run
     work = out.parent

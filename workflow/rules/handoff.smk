@@ -13,6 +13,7 @@ rule handoff:
         dictionary_json=LAYOUT.handoff_file("data_dictionary.json"),
         datapackage=LAYOUT.datapackage(),
         manifest=LAYOUT.handoff_file("manifest.json"),
+        **{f"schema_{t}": LAYOUT.dataset_schema(t) for t in COHORT_DATASETS},
     params:
         sheet=sheet_records(SHEET),
         config=config,

@@ -109,6 +109,10 @@ class ResultsLayout:
     def handoff_file(self, name: str) -> str:
         return f"{self.root}/handoff/{name}"
 
+    def dataset_schema(self, table: str) -> str:
+        """The Table Schema file the resources of one cohort dataset share."""
+        return self.handoff_file(f"schemas/{table}.schema.json")
+
     def datapackage(self) -> str:
         return f"{self.root}/datapackage.json"
 

@@ -45,28 +45,54 @@ def write_data_dictionary(tables: dict[str, str], *, markdown: Path, json_path: 
     write_atomic_text(json_path, json.dumps(entries, indent=2))
 
 
-def write_datapackage(tables: dict[str, str], *, root: Path, path: Path) -> None:
+def _fields(name: str, schema: pa.Schema) -> list[dict]:
+    out = []
+    for f in schema:
+        meaning, unit, _ = describe(name, f.name)
+        out.append({"name": f.name, "type": _frictionless_type(f.type), "description": meaning,
+                    **({"unit": unit} if unit else {})})
+    return out
+
+
+def write_datapackage(tables: dict[str, str], *, root: Path, path: Path,
+                      dataset_schemas: dict[str, Path] | None = None) -> None:
     """A Frictionless Data Package descriptor listing each table with its schema.
 
-    A dataset folder is one resource whose ``path`` lists its part files (the Data Package
-    form of one table stored in several files of one schema).
+    A cohort dataset (a folder of per-session Parquet files) is one resource per file, named
+    ``{table}-{session}`` and marked ``"dataset": table``; its Table Schema is written once to
+    ``dataset_schemas[table]`` and referenced by path. (A Data Package "multipart" path would
+    mean byte concatenation, which is not how Parquet files combine.)
     """
     resources = []
+    taken: set[str] = set()
+    dataset_schemas = dataset_schemas or {}
     for name, table_path in tables.items():
-        schema = table_schema(table_path)
-        parts = [str(p.resolve().relative_to(root.resolve())) for p in dataset_parts(table_path)]
-        fields = [{"name": f.name, "type": _frictionless_type(f.type),
-                   "description": describe(name, f.name)[0],
-                   **({"unit": describe(name, f.name)[1]} if describe(name, f.name)[1] else {})}
-                  for f in schema]
-        resources.append({"name": name.replace("_", "-"),
-                          "path": parts if Path(table_path).is_dir() else parts[0],
-                          "format": "parquet", "mediatype": "application/vnd.apache.parquet",
-                          "schema": {"fields": fields}})
+        schema = {"fields": _fields(name, table_schema(table_path))}
+        if not Path(table_path).is_dir():
+            resources.append({"name": name.replace("_", "-"),
+                              "path": str(Path(table_path).resolve().relative_to(root.resolve())),
+                              "format": "parquet", "mediatype": "application/vnd.apache.parquet",
+                              "schema": schema})
+            continue
+        schema_path = Path(dataset_schemas[name])
+        write_atomic_text(schema_path, json.dumps(schema, indent=2))
+        schema_ref = str(schema_path.resolve().relative_to(root.resolve()))
+        for part in dataset_parts(table_path):
+            resource_name = f"{name}-{part.stem}".replace("_", "-").lower()
+            while resource_name in taken:  # session ids differing only in case
+                resource_name += "-x"
+            taken.add(resource_name)
+            resources.append({"name": resource_name,
+                              "dataset": name,
+                              "path": str(part.resolve().relative_to(root.resolve())),
+                              "format": "parquet",
+                              "mediatype": "application/vnd.apache.parquet",
+                              "schema": schema_ref})
     descriptor = {"name": "spikevar-cohort", "title": "spikevar cohort tables",
                   "description": "Spike-train variability and refractory-recovery estimates per "
                   "unit, session and group. Statistical estimates: validity depends on spike "
-                  "sorting quality and recording stationarity.",
+                  "sorting quality and recording stationarity. Resources with a 'dataset' "
+                  "property are the per-session files of one table.",
                   "resources": resources}
     write_atomic_text(path, json.dumps(descriptor, indent=2))
 

@@ -46,6 +46,9 @@ def _setup_logging(log_path: str) -> None:
     for handler in (logging.FileHandler(log_path, mode="w"), logging.StreamHandler(sys.stderr)):
         handler.setFormatter(fmt)
         root.addHandler(handler)
+    if os.environ.get("SLURM_JOB_ID"):  # which batch job ran this step (cluster runs)
+        root.info("SLURM job %s on %s", os.environ["SLURM_JOB_ID"],
+                  os.environ.get("SLURMD_NODENAME", "?"))
 
 
 def write_failure_record(path: str, record: dict) -> None:
