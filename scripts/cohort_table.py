@@ -1,4 +1,6 @@
-"""Rule cohort_table: one per-session table concatenated over sessions, with sheet metadata."""
+"""Rules cohort_table and cohort_dataset: one per-session table over every session, with sheet
+metadata (a single file, or a folder of one file per session for the tables that grow with
+pairs or windows)."""
 
 import logging
 import sys
@@ -6,17 +8,13 @@ from pathlib import Path
 
 sys.path.insert(0, str(Path(snakemake.scriptdir).parent / "src"))  # noqa: F821
 
-from spikevar.cohort.tables import assemble_cohort_table  # noqa: E402
+from spikevar.cohort.tables import run_cohort_table  # noqa: E402
 from spikevar.pipeline.jobs import rule_job  # noqa: E402
 
 with rule_job(snakemake, step="cohort_table") as sm:  # noqa: F821
-    meta = sm.params.metadata
-    rows = assemble_cohort_table(
-        dict(zip(sm.params.sessions, sm.input, strict=True)),
-        meta["rows"],
-        meta_columns=meta["columns"],
-        output=sm.output.parquet,
-        csv_output=sm.output.get("csv") or None,
-    )
+    rows = run_cohort_table(sm.wildcards.table, dict(zip(sm.params.sessions, sm.input,
+                                                         strict=True)),
+                            sm.params.metadata, output=sm.output.parquet,
+                            csv_output=sm.output.get("csv") or None)
     logging.getLogger(__name__).info("cohort %s: %d rows from %d sessions", sm.wildcards.table,
                                      rows, len(sm.input))

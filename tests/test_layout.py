@@ -97,3 +97,22 @@ def test_no_test_imports_a_private_helper():
                 found += [f"{path.name}: {a.name}" for a in node.names
                           if a.name.startswith("_") and not a.name.startswith("__")]
     assert not found, found
+
+
+def test_cohort_rule_inputs_name_cohort_tables_and_datasets():
+    from spikevar.base.layout import (
+        COHORT_DATASETS,
+        COHORT_RULE_INPUTS,
+        SESSION_TABLES,
+        STATISTICS_TABLES,
+        ResultsLayout,
+    )
+
+    layout = ResultsLayout("out")
+    known = set(SESSION_TABLES) | set(STATISTICS_TABLES)
+    for rule, tables in COHORT_RULE_INPUTS.items():
+        assert set(tables) <= known, rule
+        inputs = layout.cohort_inputs(rule)
+        for table, path in inputs.items():
+            # a dataset is read as its folder, every other table as its one file
+            assert path.endswith(table if table in COHORT_DATASETS else f"{table}.parquet")

@@ -30,7 +30,7 @@ rule cohort_dataset:
     input:
         lambda w: [LAYOUT.session_table(s, w.table) for s in SESSIONS],
     output:
-        directory(LAYOUT.cohort_dataset("{table}")),
+        parquet=directory(LAYOUT.cohort_dataset("{table}")),
     wildcard_constraints:
         table="|".join(COHORT_DATASETS),
     params:
@@ -47,4 +47,4 @@ rule cohort_dataset:
         mem_mb=4000,
         runtime=30,
     script:
-        "../../scripts/cohort_dataset.py"
+        "../../scripts/cohort_table.py"

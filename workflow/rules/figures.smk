@@ -4,19 +4,7 @@ FIGURE_CATEGORY = {"quality": "Quality control"}
 
 rule cohort_figures:
     input:
-        **{
-            t: LAYOUT.cohort_table(t)
-            for t in (
-                "units",
-                "count_fano",
-                "recovery",
-                "population_fano",
-                "group_summary",
-                "population_structure",
-                "shared_over_time",
-                "r_sc_by_rate",
-            )
-        },
+        **LAYOUT.cohort_inputs("cohort_figures"),
     output:
         **{
             name: report(

@@ -3,7 +3,7 @@
 
 rule population_fano:
     input:
-        LAYOUT.cohort_dataset("fano_timecourse"),
+        **LAYOUT.cohort_inputs("population_fano"),
     output:
         LAYOUT.cohort_table("population_fano"),
     params:
@@ -25,10 +25,7 @@ rule population_fano:
 
 rule group_summary:
     input:
-        **{
-            t: LAYOUT.cohort_table(t)
-            for t in ("units", "count_fano", "recovery", "population_structure", "gain_variance")
-        },
+        **LAYOUT.cohort_inputs("group_summary"),
     output:
         summary=LAYOUT.cohort_table("group_summary"),
         differences=LAYOUT.cohort_table("group_differences"),
@@ -52,8 +49,7 @@ rule group_summary:
 # Reads the cohort datasets one session file at a time (rows grow with pairs and windows).
 rule shared_statistics:
     input:
-        timecourse=LAYOUT.cohort_dataset("shared_timecourse"),
-        pairs=LAYOUT.cohort_dataset("pair_correlations"),
+        **LAYOUT.cohort_inputs("shared_statistics"),
     output:
         over_time=LAYOUT.cohort_table("shared_over_time"),
         by_rate=LAYOUT.cohort_table("r_sc_by_rate"),

@@ -43,6 +43,15 @@ STATISTICS_TABLES = ("population_fano", "group_summary", "group_differences", "s
 COHORT_FIGURES = ("population_fano", "unit_metrics", "fano_by_window", "tau_vs_cv", "quality",
                   "r_sc_vs_rate", "shared_over_time", "shared_structure")
 FIGURE_FORMATS = ("png", "svg")
+#: the cohort tables each cohort statistics or figure rule reads (its whole input contract)
+COHORT_RULE_INPUTS = {
+    "population_fano": ("fano_timecourse",),
+    "group_summary": ("units", "count_fano", "recovery", "population_structure",
+                      "gain_variance"),
+    "shared_statistics": ("shared_timecourse", "pair_correlations"),
+    "cohort_figures": ("units", "count_fano", "recovery", "population_fano", "group_summary",
+                       "population_structure", "shared_over_time", "r_sc_by_rate"),
+}
 
 #: per-session steps in pipeline order: (rule, step name used for its log, first output)
 SESSION_STEPS = (
@@ -93,6 +102,10 @@ class ResultsLayout:
         """Where a cohort table lives: its dataset folder or its single file."""
         return self.cohort_dataset(table) if table in COHORT_DATASETS else \
             self.cohort_table(table)
+
+    def cohort_inputs(self, rule: str) -> dict[str, str]:
+        """Input name -> path of every cohort table a cohort rule reads (COHORT_RULE_INPUTS)."""
+        return {table: self.cohort_output(table) for table in COHORT_RULE_INPUTS[rule]}
 
     def cohort_figure(self, figure: str, fmt: str = "png") -> str:
         return f"{self.root}/figures/{figure}.{fmt}"

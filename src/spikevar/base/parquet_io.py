@@ -43,6 +43,8 @@ def _umask() -> int:
 
 #: Permission bits for finished outputs: what ``open()`` would give (temporary files are 0600).
 OUTPUT_MODE = 0o666 & ~_umask()
+#: the same for finished output folders (temporary folders are 0700)
+OUTPUT_DIR_MODE = 0o777 & ~_umask()
 
 
 def temporary_sibling(path: Path) -> Path:

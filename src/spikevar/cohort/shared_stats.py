@@ -171,8 +171,8 @@ def r_sc_by_rate(pair_parts: list, *, n_boot: int, rng: np.random.Generator) -> 
         return pd.DataFrame(columns=["group", "alignment", "condition", "epoch", "rate_lo_hz",
                                      "rate_hi_hz", "r_sc"])
     frame = pd.concat(per_session, ignore_index=True)
-    pairs = frame.groupby(["group", "alignment", "condition", "epoch", "rate_bin"])["n_pairs"] \
-        .sum()
+    keys = ["group", "alignment", "condition", "epoch", "rate_bin"]
+    pairs = frame.groupby(keys, as_index=False)["n_pairs"].sum()
     table = _combine_by_group(frame, keys=["alignment", "condition", "epoch"],
                               column="rate_bin", value_columns=["r_sc"], n_boot=n_boot,
                               rng=rng)
@@ -180,7 +180,6 @@ def r_sc_by_rate(pair_parts: list, *, n_boot: int, rng: np.random.Generator) -> 
     bins = table["rate_bin"].to_numpy(int)
     table.insert(5, "rate_lo_hz", edges[bins])
     table.insert(6, "rate_hi_hz", edges[bins + 1])
-    table["n_pairs"] = [int(pairs.get((g, a, c, e, b), 0)) for g, a, c, e, b in
-                        table[["group", "alignment", "condition", "epoch", "rate_bin"]]
-                        .itertuples(index=False)]
+    table = table.merge(pairs, on=keys, how="left")
+    table["n_pairs"] = table["n_pairs"].fillna(0).astype(np.int64)
     return table.drop(columns="rate_bin")

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import json
 import os
 import shutil
 import tempfile
@@ -14,6 +15,7 @@ import pyarrow.parquet as pq
 from spikevar.base.errors import OutputSpaceError, is_disk_full
 from spikevar.base.parquet_io import (
     METADATA_KEY,
+    OUTPUT_DIR_MODE,
     publish,
     read_parquet_checked,
     read_schema_checked,
@@ -72,11 +74,7 @@ def assemble_cohort_table(inputs: dict[str, str], metadata: dict[str, dict[str, 
     output = Path(output)
     output.parent.mkdir(parents=True, exist_ok=True)
     sessions = list(inputs)
-    schemas = [read_schema_checked(inputs[s], session=s) for s in sessions]
-    probe = [_with_metadata(sch.empty_table(), metadata[s], meta_columns)
-             for s, sch in zip(sessions, schemas, strict=True)]
-    schema = _unify(probe) if probe else pa.schema([(c, pa.string()) for c in meta_columns])
-    schema = schema.with_metadata({METADATA_KEY: b'{"kind": "cohort table"}'})
+    schema = _cohort_schema(inputs, metadata, meta_columns, kind="cohort table")
     tmp = temporary_sibling(output)
     tmp_csv = temporary_sibling(Path(csv_output)) if csv_output else None
     rows = 0
@@ -106,6 +104,16 @@ def assemble_cohort_table(inputs: dict[str, str], metadata: dict[str, dict[str, 
     return rows
 
 
+def _cohort_schema(inputs: dict[str, str], metadata: dict[str, dict[str, str]],
+                   meta_columns: list[str], *, kind: str) -> pa.Schema:
+    """One schema for every session's table with the metadata columns in front (only the
+    schemas are read)."""
+    probe = [_with_metadata(read_schema_checked(path, session=s).empty_table(), metadata[s],
+                            meta_columns) for s, path in inputs.items()]
+    schema = _unify(probe) if probe else pa.schema([(c, pa.string()) for c in meta_columns])
+    return schema.with_metadata({METADATA_KEY: json.dumps({"kind": kind}).encode()})
+
+
 def assemble_cohort_dataset(inputs: dict[str, str], metadata: dict[str, dict[str, str]], *,
                             meta_columns: list[str], output: str | os.PathLike) -> int:
     """Write a partitioned cohort dataset: ``output/{session}.parquet`` per session.
@@ -123,11 +131,7 @@ def assemble_cohort_dataset(inputs: dict[str, str], metadata: dict[str, dict[str
     output = Path(output)
     output.parent.mkdir(parents=True, exist_ok=True)
     sessions = list(inputs)
-    schemas = [read_schema_checked(inputs[s], session=s) for s in sessions]
-    probe = [_with_metadata(sch.empty_table(), metadata[s], meta_columns)
-             for s, sch in zip(sessions, schemas, strict=True)]
-    schema = _unify(probe) if probe else pa.schema([(c, pa.string()) for c in meta_columns])
-    schema = schema.with_metadata({METADATA_KEY: b'{"kind": "cohort dataset part"}'})
+    schema = _cohort_schema(inputs, metadata, meta_columns, kind="cohort dataset part")
     tmp = Path(tempfile.mkdtemp(prefix=f".{output.name}.", suffix=".tmp", dir=output.parent))
     rows = 0
     try:
@@ -138,7 +142,7 @@ def assemble_cohort_dataset(inputs: dict[str, str], metadata: dict[str, dict[str
             pq.write_table(table.replace_schema_metadata(schema.metadata), part,
                            compression="zstd")
             rows += table.num_rows
-        os.chmod(tmp, 0o777 & ~_umask())
+        os.chmod(tmp, OUTPUT_DIR_MODE)
         if output.exists():
             shutil.rmtree(output)
         os.replace(tmp, output)
@@ -152,10 +156,17 @@ def assemble_cohort_dataset(inputs: dict[str, str], metadata: dict[str, dict[str
     return rows
 
 
-def _umask() -> int:
-    current = os.umask(0)
-    os.umask(current)
-    return current
+def run_cohort_table(table: str, inputs: dict[str, str], metadata: dict, *,
+                     output: str | os.PathLike, csv_output: str | None = None) -> int:
+    """Entry of rules cohort_table and cohort_dataset: one per-session table over every
+    session, a single file (with its CSV copy) or, for COHORT_DATASETS, a dataset folder."""
+    from spikevar.base.layout import COHORT_DATASETS
+
+    if table in COHORT_DATASETS:
+        return assemble_cohort_dataset(inputs, metadata["rows"],
+                                       meta_columns=metadata["columns"], output=output)
+    return assemble_cohort_table(inputs, metadata["rows"], meta_columns=metadata["columns"],
+                                 output=output, csv_output=csv_output)
 
 
 FAILED_SCHEMA = pa.schema([("session", pa.string()), ("rule", pa.string()),

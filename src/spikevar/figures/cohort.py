@@ -70,10 +70,10 @@ def population_fano_figure(pop: pd.DataFrame, path) -> None:
                 top.legend(fontsize=7)
     for j in range(len(groups)):
         axes[-1, j].set_xlabel("time from the alignment event (s; window centre)")
-    fig.suptitle("Population Fano factor around each alignment event (bands: 95% interval, "
-                 "animals resampled; dotted line: the event)", x=0.01, ha="left")
-    fig.tight_layout()
-    figure_style.save(fig, path)
+    figure_style.save_titled(
+        fig, path,
+        "Population Fano factor around each alignment event (bands: 95% interval, "
+        "animals resampled; dotted line: the event)")
 
 
 def unit_metric_figure(frame: pd.DataFrame, summary: pd.DataFrame, path) -> None:
@@ -104,10 +104,10 @@ def unit_metric_figure(frame: pd.DataFrame, summary: pd.DataFrame, path) -> None
         ax.set_title(METRICS[metric], loc="left")
         ax.set_xlabel("group")
         ax.set_ylabel(METRICS[metric])
-    fig.suptitle("Unit metrics by group (dots: units; black: mean with 95% hierarchical "
-                 "bootstrap interval over subject > session > unit)", x=0.01, ha="left")
-    fig.tight_layout()
-    figure_style.save(fig, path)
+    figure_style.save_titled(
+        fig, path,
+        "Unit metrics by group (dots: units; black: mean with 95% hierarchical "
+        "bootstrap interval over subject > session > unit)")
 
 
 def fano_window_figure(count_fano: pd.DataFrame, units: pd.DataFrame, path) -> None:
@@ -186,9 +186,7 @@ def quality_figure(units: pd.DataFrame, recovery: pd.DataFrame, path) -> None:
         ax.invert_yaxis()
     ax.set_xlabel("units")
     ax.set_title("Units left out, by reason", loc="left")
-    fig.suptitle(f"Quality overview: {len(units)} units", x=0.01, ha="left")
-    fig.tight_layout()
-    figure_style.save(fig, path)
+    figure_style.save_titled(fig, path, f"Quality overview: {len(units)} units")
 
 
 def draw_cohort_figures(*, tables: dict[str, pd.DataFrame], frame: pd.DataFrame,

@@ -83,11 +83,10 @@ def r_sc_rate_figure(by_rate: pd.DataFrame, path) -> None:
     if handles:
         axes[0, -1].legend(handles, labels, fontsize=7, title="group / condition",
                            title_fontsize=7)
-    fig.suptitle("Noise correlation against firing rate (each session's pairs averaged per "
-                 "rate bin, then sessions; bands: 95% interval, animals resampled)",
-                 x=0.01, ha="left")
-    fig.tight_layout()
-    figure_style.save(fig, path)
+    figure_style.save_titled(
+        fig, path,
+        "Noise correlation against firing rate (each session's pairs averaged per "
+        "rate bin, then sessions; bands: 95% interval, animals resampled)")
 
 
 def shared_time_figure(over_time: pd.DataFrame, path) -> None:
@@ -128,11 +127,10 @@ def shared_time_figure(over_time: pd.DataFrame, path) -> None:
                 ax.legend(fontsize=7, title="condition", title_fontsize=7)
     for j in range(len(groups)):
         axes[-1, j].set_xlabel("time from the alignment event (s; window centre)")
-    fig.suptitle("Shared variability around the event (session means, then sessions averaged; "
-                 "bands: 95% interval, animals resampled; dotted line: the event)",
-                 x=0.01, ha="left")
-    fig.tight_layout()
-    figure_style.save(fig, path)
+    figure_style.save_titled(
+        fig, path,
+        "Shared variability around the event (session means, then sessions averaged; "
+        "bands: 95% interval, animals resampled; dotted line: the event)")
 
 
 def shared_structure_figure(structure: pd.DataFrame, path) -> None:
@@ -186,7 +184,7 @@ def shared_structure_figure(structure: pd.DataFrame, path) -> None:
     if handles:
         axes[0, -1].legend(handles, labels, fontsize=7, title="condition (marker)",
                            title_fontsize=7)
-    fig.suptitle(f"Population structure per session (aligned on {first or '-'}; bar: group "
-                 "median)", x=0.01, ha="left")
-    fig.tight_layout()
-    figure_style.save(fig, path)
+    figure_style.save_titled(
+        fig, path,
+        f"Population structure per session (aligned on {first or '-'}; bar: group "
+        "median)")

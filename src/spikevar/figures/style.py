@@ -31,6 +31,13 @@ def apply_style() -> None:
     })
 
 
+def save_titled(fig, path, title: str) -> None:
+    """The many-panel figures' ending: the title flush left above the panels, then save."""
+    fig.suptitle(title, x=0.01, ha="left")
+    fig.tight_layout()
+    save(fig, path)
+
+
 def save(fig, path, *, trim: bool = True) -> None:
     """Save as PNG and, next to it, SVG; close the figure.
 

@@ -139,17 +139,28 @@ def run_session_metrics(*, session: str, spikes_path, outputs: dict[str, str],
              len(tables["units"]), few, len(tables["count_fano"]))
 
 
-def run_session_timecourse(*, session: str, spikes_path, events_path, output: str,
-                           windows: SlidingWindows, alignments: list[str],
-                           event_time_column: str, span: tuple[float, float] | None = None
-                           ) -> None:
-    """Read a session's spikes and events, write the event-aligned ``fano_timecourse``."""
+def load_aligned_session(session: str, spikes_path, events_path, *, alignments: list[str],
+                         event_time_column: str
+                         ) -> tuple[SpikeArrays, pd.DataFrame, dict[str, np.ndarray]]:
+    """A session's spikes, its events and each alignment's event times in seconds (the input
+    of every event-aligned rule)."""
     spikes = load_spikes(spikes_path, session=session)
     events = read_parquet_checked(events_path, session=session).to_pandas()
     record = read_metadata(events_path)
     times = alignment_times(events, list(alignments), event_time_column=event_time_column,
                             seconds_per_unit=float(record.get("seconds_per_unit", 1.0)),
                             session=session, path=record.get("source_path") or events_path)
+    return spikes, events, times
+
+
+def run_session_timecourse(*, session: str, spikes_path, events_path, output: str,
+                           windows: SlidingWindows, alignments: list[str],
+                           event_time_column: str, span: tuple[float, float] | None = None
+                           ) -> None:
+    """Read a session's spikes and events, write the event-aligned ``fano_timecourse``."""
+    spikes, events, times = load_aligned_session(session, spikes_path, events_path,
+                                                 alignments=alignments,
+                                                 event_time_column=event_time_column)
     frame = timecourse_table(spikes, events, windows=windows, alignments=times, span=span)
     frame.insert(0, "session", session)
     write_parquet_atomic(frame_to_arrow(frame), Path(output), metadata={

@@ -20,11 +20,7 @@ from spikevar.base.layout import (
     ResultsLayout,
     failure_record_path,
 )
-from spikevar.cohort.tables import (
-    assemble_cohort_dataset,
-    assemble_cohort_table,
-    write_failed_sessions,
-)
+from spikevar.cohort.tables import run_cohort_table, write_failed_sessions
 from spikevar.pipeline.jobs import read_failure_record
 
 log = logging.getLogger(__name__)
@@ -78,12 +74,8 @@ def write_partial_cohort(layout: ResultsLayout | str | Path, sessions: list[str]
     out.mkdir(parents=True, exist_ok=True)
     for table in SESSION_TABLES:
         inputs = {s: layout.session_table(s, table) for s in complete}
-        if table in COHORT_DATASETS:
-            assemble_cohort_dataset(inputs, metadata["rows"], meta_columns=metadata["columns"],
-                                    output=out / table)
-        else:
-            assemble_cohort_table(inputs, metadata["rows"], meta_columns=metadata["columns"],
-                                  output=out / f"{table}.parquet")
+        run_cohort_table(table, inputs, metadata, output=out / table if table in COHORT_DATASETS
+                         else out / f"{table}.parquet")
     write_failed_sessions(failed, out / "failed_sessions.parquet")
     for f in failed:
         log.error("spikevar: session %s failed in %s: %s", f["session"], f["rule"], f["reason"])

@@ -6,14 +6,9 @@ from __future__ import annotations
 import logging
 from dataclasses import asdict
 
-from spikevar.base.parquet_io import (
-    frame_to_arrow,
-    read_metadata,
-    read_parquet_checked,
-    write_parquet_atomic,
-)
-from spikevar.base.spike_arrays import load_spikes, recording_span
-from spikevar.metrics.session import alignment_times
+from spikevar.base.parquet_io import frame_to_arrow, write_parquet_atomic
+from spikevar.base.spike_arrays import recording_span
+from spikevar.metrics.session import load_aligned_session
 from spikevar.population.shared import TABLES, session_seed, shared_tables
 
 log = logging.getLogger(__name__)
@@ -24,12 +19,9 @@ def run_session_shared(*, session: str, spikes_path, events_path, outputs: dict[
                        epochs: dict[str, tuple[float, float]], windows, settings,
                        seed: int, span: tuple[float, float] | None = None) -> None:
     """Read a session's spikes and events, write its five shared-variability tables."""
-    spikes = load_spikes(spikes_path, session=session)
-    events = read_parquet_checked(events_path, session=session).to_pandas()
-    record = read_metadata(events_path)
-    times = alignment_times(events, list(alignments), event_time_column=event_time_column,
-                            seconds_per_unit=float(record.get("seconds_per_unit", 1.0)),
-                            session=session, path=record.get("source_path") or events_path)
+    spikes, events, times = load_aligned_session(session, spikes_path, events_path,
+                                                 alignments=alignments,
+                                                 event_time_column=event_time_column)
     whole = recording_span(spikes, span)
     tables = shared_tables(spikes, events, alignments=times, epochs=epochs, windows=windows,
                            settings=settings, span=tuple(whole),
