@@ -11,7 +11,7 @@ SMK := $(PY) -m snakemake --cores $(CORES)
 DEMO_CONFIG := sessions=$(DEMO_COHORT)/sessions.tsv results=$(DEMO_RESULTS) alignments='[time, lick_time]'
 
 
-.PHONY: demo test quick lint unit workflow-lint bench clean
+.PHONY: demo test quick lint unit workflow-lint bench clean report-check
 
 $(STAMP): pyproject.toml
 	$(PYTHON) -m venv $(VENV)
@@ -25,6 +25,10 @@ demo: $(STAMP)
 	$(SMK) --config $(DEMO_CONFIG)
 	$(SMK) --config $(DEMO_CONFIG) --report $(DEMO_RESULTS)/report.html
 	@$(PY) -m spikevar.pipeline.where $(DEMO_RESULTS)
+
+## report-check: open the demo's report in headless Chromium, keep a screenshot of its start page
+report-check: $(STAMP)
+	$(PY) tests/report_browser.py $(DEMO_RESULTS)
 
 ## test: lint the code and the workflow, then run the whole test suite
 test: $(STAMP) lint workflow-lint unit

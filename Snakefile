@@ -39,6 +39,14 @@ include: "workflow/rules/figures.smk"
 include: "workflow/rules/handoff.smk"
 
 
+# The report's start page summarises the finished run (rule report_pages); before it exists,
+# a fixed page says how to get it.
+START_PAGE = Path(LAYOUT.report_page("start_page.rst")).resolve()
+
+
+report: str(START_PAGE) if START_PAGE.exists() else "workflow/report/start_page_pending.rst"
+
+
 localrules:
     all,
 
@@ -49,6 +57,7 @@ rule all:
         [LAYOUT.recovery_figure(s, fmt) for s in SESSIONS for fmt in FIGURE_FORMATS],
         [LAYOUT.cohort_figure(f, fmt) for f in COHORT_FIGURES for fmt in FIGURE_FORMATS],
         LAYOUT.datapackage(),
+        [LAYOUT.report_page(name) for name in REPORT_PAGES],
     default_target: True
 
 

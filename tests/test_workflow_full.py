@@ -1,5 +1,6 @@
 """The whole pipeline through Snakemake on a tiny cohort: tables written, read back, figures."""
 
+import os
 import shutil
 
 import pandas as pd
@@ -8,6 +9,7 @@ import pytest
 
 from conftest import run_snakemake
 from spikevar.base.parquet_io import sha256_of_file
+from spikevar.cohort.report_pages import with_interval
 
 pytestmark = pytest.mark.workflow
 
@@ -185,9 +187,11 @@ def test_every_written_file_is_declared_and_every_declared_file_written(full_run
     written = {w for w in written if not any(w.startswith(f + "/") for f in folders)}
     assert {f.split("/")[-1] for f in folders} == {"fano_timecourse", "pair_correlations",
                                                    "shared_timecourse"}
-    # Snakemake's own benchmark records and the report (written by --report, not by a rule)
+    # Snakemake's own benchmark records, the report (written by --report, not by a rule) and
+    # the browser check's screenshot of it
     extra = {w for w in written - outputs - logs
-             if not w.startswith("out/benchmarks/") and w != "out/report.html"}
+             if not w.startswith("out/benchmarks/")
+             and w not in ("out/report.html", "out/report_start_page.png")}
     assert not extra, f"written but declared by no rule: {sorted(extra)}"
     assert any(o.endswith(".svg") for o in outputs)
     missing = {o for o in outputs if not (work / o).is_file()}
@@ -205,3 +209,37 @@ def test_figures_and_report(full_run, tmp_path):
                   "--report", str(out / "report.html"))
     html = (out / "report.html").read_text(errors="ignore")
     assert "Population Fano factor" in html
+
+
+def test_report_in_a_real_browser(full_run):
+    """Headless Chromium opens report.html: the start page shows the cohort summary and the
+    main results (the numbers of the group tables), every figure decodes to an image, every
+    table page holds a table. The screenshot stays in the results for a person to look at."""
+    from report_browser import find_chromium, problems, view_report
+
+    if find_chromium() is None:
+        reason = "no Chromium here (Debian: apt-get install chromium)"
+        if os.environ.get("CI") == "true":
+            pytest.fail(reason + " (CI must run the browser check)")
+        pytest.skip(reason)
+    out, sheet, _ = full_run
+    report = out / "report.html"
+    if not report.exists():
+        run_snakemake(out.parent, "--config", f"sessions={out.parent / 'cohort' / 'sessions.tsv'}",
+                      "results=out", "--report", str(report))
+    view = view_report(report, out / "report_start_page.png")
+    assert problems(view) == []
+    text = view.start_text
+    assert f"{len(sheet)} sessions, {sheet['subject'].nunique()} subjects" in text
+    for group in sheet["group"].unique():
+        assert group in text
+    assert "Not for clinical decisions" in text and "Main group results" in text
+    summary = pd.read_parquet(out / "cohort" / "group_summary.parquet")
+    cv = summary[(summary["metric"] == "isi_cv") & (summary["group"] == "standard")].iloc[0]
+    assert with_interval(cv["mean"], cv["mean_ci_lo"], cv["mean_ci_hi"]) in text
+    kinds = [item["kind"] for item in view.results]
+    n_figures = 8 + len(sheet)  # the cohort figures and one recovery figure per session
+    assert kinds.count("image/png") == n_figures
+    assert kinds.count("text/html") == 2
+    assert all(item["width"] > 300 for item in view.results if item["kind"] == "image/png")
+    assert view.screenshot.read_bytes()[:4] == b"\x89PNG"

@@ -16,7 +16,7 @@ pytestmark = pytest.mark.workflow
 SESSION_RULES = {"ingest_session", "session_metrics", "session_timecourse", "session_shared",
                  "session_recovery", "session_recovery_figure"}
 COHORT_RULES = {"cohort_table", "cohort_dataset", "population_fano", "group_summary",
-                "shared_statistics", "handoff", "cohort_figures"}
+                "shared_statistics", "handoff", "cohort_figures", "report_pages"}
 
 
 def planned_jobs(workdir, sheet, *extra, snakefile=None):

@@ -3,8 +3,13 @@
 from spikevar.base.layout import (
     COHORT_DATASETS,
     COHORT_FIGURES,
+    DEFAULT_FIGURE_CATEGORY,
+    FIGURE_CATEGORY,
     FIGURE_FORMATS,
     NORMALISED_TABLES,
+    REPORT_CATEGORIES,
+    REPORT_PAGES,
+    REPORT_TABLES,
     SESSION_ID_PATTERN,
     SESSION_TABLES,
     SHARED_TABLES,
@@ -18,6 +23,7 @@ from spikevar.pipeline.rule_inputs import (
     ingest_inputs,
     ingest_settings,
     declared_span,
+    primary_alignment,
     sheet_records,
 )
 

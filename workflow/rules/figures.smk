@@ -1,5 +1,4 @@
 # Stage 6: the cohort figure set (each figure as PNG, in the report, and SVG).
-FIGURE_CATEGORY = {"quality": "Quality control"}
 
 
 rule cohort_figures:
@@ -10,7 +9,7 @@ rule cohort_figures:
             name: report(
                 LAYOUT.cohort_figure(name, "png"),
                 caption=f"../report/{name}.rst",
-                category=FIGURE_CATEGORY.get(name, "Cohort"),
+                category=FIGURE_CATEGORY.get(name, DEFAULT_FIGURE_CATEGORY),
             )
             for name in COHORT_FIGURES
         },

@@ -30,3 +30,38 @@ rule handoff:
         runtime=10,
     script:
         "../../scripts/handoff.py"
+
+
+# The report's own pages: the start page of `snakemake --report` (the Snakefile's report:
+# directive points at it once it exists) and the group tables, shown under "Group statistics".
+rule report_pages:
+    input:
+        units=LAYOUT.cohort_table("units"),
+        group_summary=LAYOUT.cohort_table("group_summary"),
+        group_differences=LAYOUT.cohort_table("group_differences"),
+    output:
+        start=LAYOUT.report_page("start_page.rst"),
+        **{
+            table: report(
+                LAYOUT.report_page(f"{table}.html"),
+                caption=f"../report/{table}.rst",
+                category="Group statistics",
+            )
+            for table in REPORT_TABLES
+        },
+    params:
+        sessions=SESSIONS,
+        alignment=primary_alignment(config),
+        categories=[name for name, _ in REPORT_CATEGORIES],
+        code=code_fingerprint("cohort.report_pages", "base.layout"),
+    log:
+        **LAYOUT.cohort_logs("report_pages"),
+    benchmark:
+        LAYOUT.cohort_benchmark("report_pages")
+    conda:
+        "../envs/spikevar.yaml"
+    resources:
+        mem_mb=2000,
+        runtime=10,
+    script:
+        "../../scripts/report_pages.py"

@@ -33,7 +33,7 @@ rule session_recovery_figure:
         png=report(
             LAYOUT.recovery_figure("{session}", "png"),
             caption="../report/session_recovery.rst",
-            category="Recovery fits",
+            category="Recovery fits by session",
             subcategory="{session}",
         ),
         svg=LAYOUT.recovery_figure("{session}", "svg"),

@@ -13,6 +13,7 @@ session's outputs or a job's failure record. Names of tables and figures are lis
     {results}/figures/sessions/{session}_recovery.{png,svg}
     {results}/figures/{figure}.{png,svg}              cohort figures
     {results}/handoff/...  {results}/datapackage.json hand-off
+    {results}/report/start_page.rst, {table}.html    pages of ``snakemake --report``
     {results}/logs/sessions/{session}/{step}.log      one log per job, and beside it
     {results}/logs/sessions/{session}/{step}.failure.json   the failure record of a failed job
     {results}/logs/cohort/{step}.log (+ .failure.json)
@@ -43,6 +44,22 @@ STATISTICS_TABLES = ("population_fano", "group_summary", "group_differences", "s
 COHORT_FIGURES = ("population_fano", "unit_metrics", "fano_by_window", "tau_vs_cv", "quality",
                   "r_sc_vs_rate", "shared_over_time", "shared_structure")
 FIGURE_FORMATS = ("png", "svg")
+#: the report's own pages (rule report_pages): its start page and the group tables as HTML
+REPORT_TABLES = ("group_summary", "group_differences")
+REPORT_PAGES = ("start_page.rst", *(f"{t}.html" for t in REPORT_TABLES))
+#: report categories in the order the start page explains them: (name, what it holds)
+REPORT_CATEGORIES = (
+    ("Group statistics", "every metric per group, and the group differences, as tables"),
+    ("Variability and recovery", "unit variability, Fano factor around events, recovery tau"),
+    ("Shared variability", "noise correlations, shared variance over time, dimensions"),
+    ("Quality control", "violations, contamination, units left out and why: look here first"),
+    ("Recovery fits by session", "ISI densities against the fitted models, goodness of fit"),
+)
+#: the report category of each cohort figure
+FIGURE_CATEGORY = {"quality": "Quality control", "r_sc_vs_rate": "Shared variability",
+                   "shared_over_time": "Shared variability",
+                   "shared_structure": "Shared variability"}
+DEFAULT_FIGURE_CATEGORY = "Variability and recovery"
 #: the cohort tables each cohort statistics or figure rule reads (its whole input contract)
 COHORT_RULE_INPUTS = {
     "population_fano": ("fano_timecourse",),
@@ -125,6 +142,10 @@ class ResultsLayout:
     def dataset_schema(self, table: str) -> str:
         """The Table Schema file the resources of one cohort dataset share."""
         return self.handoff_file(f"schemas/{table}.schema.json")
+
+    def report_page(self, name: str) -> str:
+        """The report's start page (``start_page.rst``) or a group table page (``{table}.html``)."""
+        return f"{self.root}/report/{name}"
 
     def datapackage(self) -> str:
         return f"{self.root}/datapackage.json"

@@ -72,3 +72,9 @@ def sheet_records(sheet: pd.DataFrame) -> list[dict]:
                 row[key] = portable_path(row[key])
         records.append(row)
     return records
+
+
+def primary_alignment(config: dict) -> str:
+    """The alignment the report's start page summarises: the first of ``alignments``, else the
+    event time column."""
+    return (list(config["alignments"]) or [config["columns"]["event_time"]])[0]
