@@ -31,6 +31,7 @@ validate(config, str(REPO / "workflow" / "schemas" / "config.schema.yaml"))
 include: "workflow/rules/common.smk"
 include: "workflow/rules/ingest.smk"
 include: "workflow/rules/metrics.smk"
+include: "workflow/rules/selection.smk"
 include: "workflow/rules/shared.smk"
 include: "workflow/rules/recovery.smk"
 include: "workflow/rules/cohort.smk"

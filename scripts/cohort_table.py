@@ -12,9 +12,12 @@ from spikevar.cohort.tables import run_cohort_table  # noqa: E402
 from spikevar.pipeline.jobs import rule_job  # noqa: E402
 
 with rule_job(snakemake, step="cohort_table") as sm:  # noqa: F821
-    rows = run_cohort_table(sm.wildcards.table, dict(zip(sm.params.sessions, sm.input,
+    selection = list(sm.input.get("selection", []))
+    rows = run_cohort_table(sm.wildcards.table, dict(zip(sm.params.sessions, sm.input.tables,
                                                          strict=True)),
                             sm.params.metadata, output=sm.output.parquet,
-                            csv_output=sm.output.get("csv") or None)
+                            csv_output=sm.output.get("csv") or None,
+                            selections=dict(zip(sm.params.sessions, selection, strict=True))
+                            if selection else None)
     logging.getLogger(__name__).info("cohort %s: %d rows from %d sessions", sm.wildcards.table,
-                                     rows, len(sm.input))
+                                     rows, len(sm.input.tables))

@@ -17,6 +17,7 @@ with rule_job(snakemake, step="shared") as sm:  # noqa: F821
         session=sm.wildcards.session,
         spikes_path=sm.input.spikes,
         events_path=sm.input.events,
+        selection_path=sm.input.selection,
         outputs={name: sm.output[name] for name in SHARED_TABLES},
         alignments=list(sm.params.alignments),
         event_time_column=sm.params.event_time_column,

@@ -332,3 +332,44 @@ def test_conflicting_events_at_one_time_are_refused(tmp_path, frame, expected):
     with pytest.raises(SpikevarInputError, match=expected) as err:
         run(tmp_path, spikes, events)
     assert "1 (line 2), 2 (line 3)" in str(err.value)
+
+
+def spike_folder(tmp_path, times, units, names=("times.npy", "units.npy")):
+    folder = tmp_path / "sorted"
+    folder.mkdir(exist_ok=True)
+    np.save(folder / names[0], times)
+    np.save(folder / names[1], units)
+    return folder
+
+
+def test_folder_of_spike_arrays_reads_like_a_table(tmp_path):
+    # sample indices at 30 kHz, ids as an n x 1 integer column (as sorters often save them)
+    samples = np.round(SPIKES["time"].to_numpy() * 30000).astype(np.int64)
+    ids = np.array([[2], [1], [1], [2], [1]], dtype=np.int32)
+    folder = spike_folder(tmp_path, samples, ids)
+    spikes, _, out = run(tmp_path, folder, time_unit="samples", sampling_rate_hz=30000.0)
+    assert spikes["unit"].tolist() == ["1", "1", "1", "2", "2"]
+    np.testing.assert_allclose(spikes["time_s"], [0.1, 0.3, 1.25, 0.2, 0.5])
+    meta = read_metadata(out / "spikes.parquet")
+    assert meta["source_sha256"] == {"times.npy": sha256_of_file(folder / "times.npy"),
+                                     "units.npy": sha256_of_file(folder / "units.npy")}
+
+
+def test_folder_file_names_come_from_config(tmp_path):
+    from spikevar.inputs.settings import SpikeArrayFiles
+
+    folder = spike_folder(tmp_path, SPIKES["time"].to_numpy(), np.array(list("babba")),
+                          names=("st.npy", "clu.npy"))
+    spikes, _, _ = run(tmp_path, folder, arrays=SpikeArrayFiles(times="st.npy", units="clu.npy"))
+    assert sorted(spikes["unit"].unique()) == ["a", "b"]
+    expect_error(tmp_path / "second", folder, "no file times.npy", "st.npy",
+                 "spike_arrays.times")
+
+
+def test_folder_arrays_of_unequal_length_or_wrong_type_are_refused(tmp_path):
+    folder = spike_folder(tmp_path, np.arange(5.0), np.arange(4))
+    expect_error(tmp_path, folder, "holds 5 values but units.npy holds 4")
+    folder = spike_folder(tmp_path, np.array(["a"] * 3), np.arange(3))
+    expect_error(tmp_path, folder, "not numbers", "times.npy")
+    folder = spike_folder(tmp_path, np.zeros((3, 2)), np.arange(3))
+    expect_error(tmp_path, folder, "shape (3, 2)")

@@ -29,11 +29,13 @@ DATASETS = ("fano_timecourse", "pair_correlations")
 def test_killed_run_resumes_to_identical_outputs_with_read_only_inputs(tiny_cohort, tmp_path):
     cohort = tmp_path / "cohort"
     shutil.copytree(tiny_cohort.parent, cohort)
-    raw = sorted(p for p in cohort.iterdir() if p.name != "sessions.tsv")
-    before = {p.name: sha256_of_file(p) for p in raw}
-    for p in cohort.iterdir():
+    raw = sorted(p for p in cohort.rglob("*") if p.is_file() and p.name != "sessions.tsv")
+    folders = sorted((p for p in cohort.rglob("*") if p.is_dir()), reverse=True)
+    before = {str(p.relative_to(cohort)): sha256_of_file(p) for p in raw}
+    for p in raw + [cohort / "sessions.tsv"]:
         p.chmod(stat.S_IRUSR | stat.S_IRGRP)
-    cohort.chmod(stat.S_IRUSR | stat.S_IXUSR)
+    for folder in [*folders, cohort]:  # a sorter's folder of arrays too
+        folder.chmod(stat.S_IRUSR | stat.S_IXUSR)
     config = ["--config", "sessions=cohort/sessions.tsv", "results=out"]
     try:
         # reference: an uninterrupted run in another folder
@@ -70,10 +72,11 @@ def test_killed_run_resumes_to_identical_outputs_with_read_only_inputs(tiny_coho
             b = pq.read_table(work / "out" / "cohort" / dataset)
             assert a.equals(b), dataset
     finally:
-        cohort.chmod(stat.S_IRWXU)
-        for p in cohort.iterdir():
+        for folder in [cohort, *sorted(folders)]:
+            folder.chmod(stat.S_IRWXU)
+        for p in raw + [cohort / "sessions.tsv"]:
             p.chmod(stat.S_IRUSR | stat.S_IWUSR)
-    assert {p.name: sha256_of_file(p) for p in raw} == before
+    assert {str(p.relative_to(cohort)): sha256_of_file(p) for p in raw} == before
 
 
 def _table(train, duration):

@@ -8,6 +8,7 @@ import pyarrow.parquet as pq
 import pytest
 
 from conftest import run_snakemake
+from spikevar.base.layout import COHORT_DATASETS
 from spikevar.base.parquet_io import sha256_of_file
 from spikevar.cohort.report_pages import with_interval
 
@@ -185,8 +186,7 @@ def test_every_written_file_is_declared_and_every_declared_file_written(full_run
     folders = {o for o in outputs if (work / o).is_dir()}
     outputs = {o for o in outputs if o not in folders}
     written = {w for w in written if not any(w.startswith(f + "/") for f in folders)}
-    assert {f.split("/")[-1] for f in folders} == {"fano_timecourse", "pair_correlations",
-                                                   "shared_timecourse"}
+    assert {f.split("/")[-1] for f in folders} == set(COHORT_DATASETS)
     # Snakemake's own benchmark records, the report (written by --report, not by a rule) and
     # the browser check's screenshot of it
     extra = {w for w in written - outputs - logs

@@ -13,8 +13,8 @@ from spikevar.base.parquet_io import read_frame
 
 pytestmark = pytest.mark.workflow
 
-SESSION_RULES = {"ingest_session", "session_metrics", "session_timecourse", "session_shared",
-                 "session_recovery", "session_recovery_figure"}
+SESSION_RULES = {"ingest_session", "session_metrics", "session_selection", "session_timecourse",
+                 "session_shared", "session_recovery", "session_recovery_figure"}
 COHORT_RULES = {"cohort_table", "cohort_dataset", "population_fano", "group_summary",
                 "shared_statistics", "handoff", "cohort_figures", "report_pages"}
 
@@ -192,3 +192,47 @@ def test_two_runs_give_identical_tables(finished):
         a = read_frame(work / "out" / "cohort" / dataset)
         b = read_frame(work / "again" / "cohort" / dataset)
         pd.testing.assert_frame_equal(a, b)
+
+
+def test_changing_the_inclusion_rules_reruns_the_selection_and_what_reads_it(finished):
+    work, sheet = finished
+    override = work / "inclusion.yaml"
+    override.write_text("inclusion: {min_rate_hz: 12.0}\n")
+    args = ("--configfile", str(REPO / "config" / "config.yaml"), str(override))
+    rules = rules_of(planned_jobs(work, sheet, *args))
+    assert {"session_selection", "session_shared", "cohort_table", "cohort_dataset",
+            "population_fano", "group_summary", "shared_statistics", "cohort_figures"} <= rules
+    # never ingestion, the per-unit metrics, the time course or the recovery fits
+    assert not rules & {"ingest_session", "session_metrics", "session_timecourse",
+                        "session_recovery", "session_recovery_figure"}
+    # one session gets a label table (one unit unlabelled, one id unknown); labels are
+    # ingested on their own, so this too reruns no per-unit metric or fit
+    frame = pd.read_csv(work / sheet, sep="\t", dtype=str, keep_default_na=False)
+    labelled = frame.loc[0, "session"]
+    spikes = pd.read_parquet(work / "out" / "sessions" / labelled / "units.parquet")
+    ids = spikes["unit"].astype(str).tolist()
+    (work / "cohort" / "labels.tsv").write_text(
+        "unit\tlabel\n" + "".join(f"{u}\tgood\n" for u in ids[:-1]) + "zz99\tnoise\n")
+    frame["unit_labels"] = ["labels.tsv"] + [""] * (len(frame) - 1)
+    frame.to_csv(work / sheet, sep="\t", index=False)
+    override.write_text("inclusion: {min_rate_hz: 12.0}\n")
+    rules = rules_of(planned_jobs(work, sheet, *args))
+    assert "ingest_unit_labels" in rules and not rules & {
+        "ingest_session", "session_metrics", "session_recovery"}
+    run_snakemake(work, *args, "--config", f"sessions={sheet}", "results=out")
+    chosen = pd.read_parquet(work / "out" / "cohort" / "unit_selection.parquet")
+    units = pd.read_parquet(work / "out" / "cohort" / "units.parquet")
+    slow = units["rate_hz"] < 12.0
+    assert slow.any() and (~slow).any()
+    assert list(units["included"]) == list(~slow)
+    reasons = chosen.set_index(["session", "unit"]).loc[
+        list(zip(units.loc[slow, "session"], units.loc[slow, "unit"], strict=True)),
+        "exclusion_reasons"]
+    assert reasons.str.contains("under 12 Hz").all()
+    mine = chosen[chosen["session"] == labelled].set_index("unit")["label"]
+    assert mine[ids[:-1]].eq("good").all() and mine[ids[-1]] == ""  # not guessed
+    log = (work / "out" / "logs" / "sessions" / labelled / "selection.log").read_text()
+    assert "zz99" in log and ids[-1] in log
+    summary = pd.read_parquet(work / "out" / "cohort" / "group_summary.parquet")
+    cv = summary[summary["metric"] == "isi_cv"].set_index("group")["n_units"]
+    assert cv.sum() == int((~slow & units["isi_cv"].notna()).sum())

@@ -1,8 +1,12 @@
-# Stage 4: cohort tables (per-session tables concatenated, with the sheet's metadata).
+# Stage 4: cohort tables (per-session tables concatenated, with the sheet's metadata; per-unit
+# tables gain `included` from each session's unit_selection).
 
 rule cohort_table:
     input:
-        lambda w: [LAYOUT.session_table(s, w.table) for s in SESSIONS],
+        tables=lambda w: [LAYOUT.session_table(s, w.table) for s in SESSIONS],
+        selection=lambda w: [LAYOUT.session_table(s, "unit_selection") for s in SESSIONS]
+        if w.table in PER_UNIT_TABLES
+        else [],
     output:
         parquet=LAYOUT.cohort_table("{table}"),
         csv=LAYOUT.cohort_table("{table}", "csv") if config["cohort"]["csv_copies"] else [],
@@ -28,7 +32,10 @@ rule cohort_table:
 # Tables whose rows grow with unit pairs or windows: a folder with one file per session.
 rule cohort_dataset:
     input:
-        lambda w: [LAYOUT.session_table(s, w.table) for s in SESSIONS],
+        tables=lambda w: [LAYOUT.session_table(s, w.table) for s in SESSIONS],
+        selection=lambda w: [LAYOUT.session_table(s, "unit_selection") for s in SESSIONS]
+        if w.table in PER_UNIT_TABLES
+        else [],
     output:
         parquet=directory(LAYOUT.cohort_dataset("{table}")),
     wildcard_constraints:

@@ -6,7 +6,9 @@ from spikevar.base.layout import (
     DEFAULT_FIGURE_CATEGORY,
     FIGURE_CATEGORY,
     FIGURE_FORMATS,
+    METRIC_TABLES,
     NORMALISED_TABLES,
+    PER_UNIT_TABLES,
     REPORT_CATEGORIES,
     REPORT_PAGES,
     REPORT_TABLES,
@@ -21,8 +23,11 @@ from spikevar.inputs.sheet import load_sheet
 from spikevar.pipeline.rule_inputs import (
     cohort_metadata,
     ingest_inputs,
+    selection_inputs,
+    unit_labels_input,
     ingest_settings,
     declared_span,
+    has_unit_labels,
     primary_alignment,
     sheet_records,
 )

@@ -6,6 +6,11 @@ rule handoff:
         tables=[LAYOUT.cohort_output(t) for t in (*SESSION_TABLES, *STATISTICS_TABLES)],
         normalised=[
             LAYOUT.session_table(s, kind) for s in SESSIONS for kind in NORMALISED_TABLES
+        ]
+        + [
+            LAYOUT.session_table(s, "unit_labels")
+            for s in SESSIONS
+            if has_unit_labels(SHEET, s)
         ],
     output:
         failed=LAYOUT.cohort_table("failed_sessions"),

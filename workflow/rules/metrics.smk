@@ -5,9 +5,10 @@ rule session_metrics:
     input:
         spikes=LAYOUT.session_table("{session}", "spikes"),
     output:
-        **{t: LAYOUT.session_table("{session}", t) for t in ("units", "count_fano")},
+        **{t: LAYOUT.session_table("{session}", t) for t in METRIC_TABLES},
     params:
         metrics=config["metrics"],
+        stability=config["stability"],
         span=lambda w: declared_span(SHEET, w.session),
         code=code_fingerprint("metrics.session", "base.settings"),
     log:

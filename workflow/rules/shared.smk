@@ -6,6 +6,7 @@
 rule session_shared:
     input:
         **{t: LAYOUT.session_table("{session}", t) for t in NORMALISED_TABLES},
+        selection=LAYOUT.session_table("{session}", "unit_selection"),
     output:
         **{t: LAYOUT.session_table("{session}", t) for t in SHARED_TABLES},
     params:

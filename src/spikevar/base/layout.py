@@ -33,10 +33,17 @@ NORMALISED_TABLES = ("spikes", "events")
 #: per-session tables of shared variability (rule session_shared)
 SHARED_TABLES = ("pair_correlations", "shared_variance", "population_structure",
                  "shared_timecourse", "gain_variance")
-SESSION_TABLES = ("units", "count_fano", "fano_timecourse", "recovery", *SHARED_TABLES)
+#: per-session tables of rule session_metrics
+METRIC_TABLES = ("units", "count_fano", "unit_blocks")
+SESSION_TABLES = (*METRIC_TABLES, "unit_selection", "fano_timecourse", "recovery",
+                  *SHARED_TABLES)
+#: per-unit tables: every unit kept, and their cohort form gains ``included`` from the
+#: session's unit_selection (so a change of the inclusion rules reruns no per-unit fit)
+PER_UNIT_TABLES = ("units", "count_fano", "unit_blocks", "fano_timecourse", "recovery",
+                   "shared_variance", "gain_variance")
 #: per-session tables whose rows grow with unit pairs or windows: their cohort form is a
 #: partitioned Parquet dataset (a folder with one file per session, readable as one table)
-COHORT_DATASETS = ("fano_timecourse", "pair_correlations", "shared_timecourse")
+COHORT_DATASETS = ("fano_timecourse", "pair_correlations", "shared_timecourse", "unit_blocks")
 #: cohort statistics tables
 STATISTICS_TABLES = ("population_fano", "group_summary", "group_differences", "shared_over_time",
                      "r_sc_by_rate")
@@ -74,6 +81,7 @@ COHORT_RULE_INPUTS = {
 SESSION_STEPS = (
     ("ingest_session", "ingest", "spikes"),
     ("session_metrics", "metrics", "units"),
+    ("session_selection", "selection", "unit_selection"),
     ("session_timecourse", "timecourse", "fano_timecourse"),
     ("session_shared", "shared", "pair_correlations"),
     ("session_recovery", "recovery", "recovery"),

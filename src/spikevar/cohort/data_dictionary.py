@@ -12,6 +12,11 @@ META = {
     "group": ("between-subject group from the sheet (default 'all')", "", ""),
 }
 EXTRA_META = ("any other sheet column, carried as text", "", "")
+#: the column every cohort per-unit table gains from the session's unit_selection
+INCLUDED = {"included": ("the unit passes every inclusion rule (unit_selection); population "
+                         "and group statistics use included units only", "",
+                         "config inclusion")}
+COX = "Cox 1962, Renewal Theory (Methuen), ch. 9"
 
 HOLT = "Holt et al. 1996, J Neurophysiol 75:1806"
 SHIN03 = "Shinomoto et al. 2003, Neural Comput 15:2823"
@@ -66,6 +71,34 @@ TABLES: dict[str, dict[str, tuple[str, str, str]]] = {
                         "mean intervals", "", "Cox 1962"),
         "fano_to_cv2_reason": ("why fano_to_cv2 is NaN ('' if defined)", "", ""),
         "isi_reason": ("why ISI measures are NaN ('' if defined)", "", ""),
+        "first_spike_s": ("time of the unit's first spike", "s", ""),
+        "last_spike_s": ("time of the unit's last spike", "s", ""),
+        "rate_drift_pvalue": ("p-value of the test that the block counts (unit_blocks) come "
+                              "from one stationary rate: chi-squared dispersion of the counts "
+                              "with the renewal count variance CV^2 x mean allowed for, CV^2 "
+                              "measured inside the blocks", "", COX),
+        "rate_drift_reason": ("why rate_drift_pvalue is NaN ('' if tested)", "", ""),
+        "stable": ("rate_drift_pvalue >= stability.alpha (false when not testable)", "",
+                   "config stability"),
+    },
+    "unit_blocks": {
+        "unit": ("unit id", "", ""),
+        "block": ("index of the block, from 0 at the start of the recording span", "", ""),
+        "block_start_s": ("start of the block", "s", "config stability.block_s"),
+        "block_s": ("length of the block (the last may be shorter)", "s", ""),
+        "n_spikes": ("spikes in the block", "count", ""),
+        "rate_hz": ("rate in the block", "Hz", "n_spikes / block_s"),
+        "isi_cv2": ("mean local CV of consecutive ISI pairs inside the block", "", HOLT),
+        "fano": ("Fano factor of the counts in the block's sub-windows", "",
+                 "config stability.subwindow_s"),
+    },
+    "unit_selection": {
+        "unit": ("unit id", "", ""),
+        "included": ("the unit passes every inclusion rule", "", "config inclusion"),
+        "exclusion_reasons": ("every rule the unit fails, ';'-separated ('' when included)",
+                              "", "config inclusion"),
+        "label": ("the unit's label from the sheet's unit_labels table ('' if none)", "",
+                  "sheet column unit_labels"),
     },
     "count_fano": {
         "unit": ("unit id", "", ""),
@@ -292,6 +325,8 @@ def describe(table: str, column: str) -> tuple[str, str, str]:
     """Meaning, unit and method of a column (sheet metadata included)."""
     if column in TABLES.get(table, {}):
         return TABLES[table][column]
+    if column in INCLUDED:
+        return INCLUDED[column]
     if column in META:
         return META[column]
     return EXTRA_META

@@ -31,6 +31,7 @@ def unit_metric_frame(units: pd.DataFrame, count_fano: pd.DataFrame,
                       recovery: pd.DataFrame) -> pd.DataFrame:
     """One row per unit with every summarised metric (cohort tables as input).
 
+    Units of a cohort table with ``included`` False are left out (config ``inclusion``).
     ``fano_long`` is the Fano factor at the longest counting window; ``recovery_tau_s`` and
     ``dead_time_s`` come from the converged stationary ``exp_recovery`` fit (NaN otherwise).
     A tau at either bound of its search range (``tau_at_bound`` lower or upper) is a limit, not
@@ -38,6 +39,8 @@ def unit_metric_frame(units: pd.DataFrame, count_fano: pd.DataFrame,
     the summaries can count such units.
     """
     key = ["session", "unit"]
+    if "included" in units.columns:  # the cohort table: the included units only
+        units = units[units["included"].astype(bool)]
     frame = units[["session", "subject", "group", "unit", "rate_hz", "isi_cv", "isi_cv2",
                    "isi_lv", "isi_lvr"]].copy()
     if len(count_fano):

@@ -120,13 +120,16 @@ def write_manifest(*, sheet: list[dict], normalised: list[str], config: dict, re
     recorded = {(Path(p).parent.name, Path(p).stem): p for p in normalised}
     inputs, seen = [], set()
     for row in sheet:
-        for column in ("spikes", "events"):
+        for column in ("spikes", "events", "unit_labels"):
             value = row.get(column)
             if value and (row["session"], value) not in seen:  # an NWB file may hold both
                 seen.add((row["session"], value))
-                meta = read_metadata(recorded[(row["session"], column)])
-                inputs.append({"session": row["session"], "role": column, "path": value,
-                               "sha256": meta["source_sha256"]})
+                sha = read_metadata(recorded[(row["session"], column)])["source_sha256"]
+                files = sha.items() if isinstance(sha, dict) else [(None, sha)]
+                for name, digest in files:  # a folder of spike arrays: each of its files
+                    inputs.append({"session": row["session"], "role": column,
+                                   "path": f"{value}/{name}" if name else value,
+                                   "sha256": digest})
     versions = {}
     for package in ("snakemake", "numpy", "scipy", "pandas", "pyarrow", "matplotlib", "seaborn",
                     "pynwb"):

@@ -32,9 +32,11 @@ def run_group_summary(*, units, count_fano, recovery, population_structure, gain
     frame = unit_metric_frame(read_frame(units), read_frame(count_fano), read_frame(recovery))
     rng = np.random.default_rng(seed)
     summary, differences = group_summary(frame, n_boot=settings.n_boot, rng=rng)
-    s_sum, s_diff = shared_group_summary(read_frame(population_structure),
-                                         read_frame(gain_variance), n_boot=settings.n_boot,
-                                         rng=rng)
+    gain = read_frame(gain_variance)
+    if "included" in gain.columns:
+        gain = gain[gain["included"].astype(bool)]
+    s_sum, s_diff = shared_group_summary(read_frame(population_structure), gain,
+                                         n_boot=settings.n_boot, rng=rng)
     summary = _with_strata(summary, s_sum, lead=["metric", "metric_label"])
     differences = _with_strata(differences, s_diff, lead=["metric"])
     meta = {"n_boot": settings.n_boot, "seed": seed, "levels": "subject > session > unit"}

@@ -9,6 +9,7 @@ import tempfile
 from pathlib import Path
 
 import pyarrow as pa
+import pyarrow.compute as pc
 import pyarrow.csv as pacsv
 import pyarrow.parquet as pq
 
@@ -31,6 +32,24 @@ def _with_metadata(table: pa.Table, meta: dict[str, str], meta_columns: list[str
     columns = [pa.array([str(meta.get(c, ""))] * n, pa.string()) for c in meta_columns]
     return pa.Table.from_arrays(columns + table.columns,
                                 names=meta_columns + table.column_names)
+
+
+def _with_included(table: pa.Table, selection: str | os.PathLike | None, *,
+                   session: str) -> pa.Table:
+    """``table`` with the column ``included`` of its unit from the session's unit_selection
+    (a unit the selection does not list is not included)."""
+    if selection is None:
+        return table
+    if "included" in table.column_names:
+        table = table.drop_columns(["included"])
+    if table.num_rows == 0:
+        return table.append_column("included", pa.array([], pa.bool_()))
+    chosen = read_parquet_checked(selection, session=session, columns=["unit", "included"])
+    keep = {u for u, inc in zip(chosen.column("unit").to_pylist(),
+                                chosen.column("included").to_pylist(), strict=True) if inc}
+    units = table.column("unit").cast(pa.string())
+    flags = pc.is_in(units, value_set=pa.array(sorted(keep), pa.string()))
+    return table.append_column("included", pc.fill_null(flags, False))
 
 
 def _unify(tables: list[pa.Table]) -> pa.Schema:
@@ -59,8 +78,10 @@ def _conform(table: pa.Table, schema: pa.Schema) -> pa.Table:
 
 def assemble_cohort_table(inputs: dict[str, str], metadata: dict[str, dict[str, str]], *,
                           meta_columns: list[str], output: str | os.PathLike,
-                          csv_output: str | os.PathLike | None = None) -> int:
-    """Concatenate per-session Parquet tables with the sheet's metadata columns in front.
+                          csv_output: str | os.PathLike | None = None,
+                          selections: dict[str, str] | None = None) -> int:
+    """Concatenate per-session Parquet tables with the sheet's metadata columns in front
+    (and, given each session's unit_selection in ``selections``, the column ``included``).
 
     Only each table's schema is read up front; the rows are then streamed session by session
     into a Parquet writer (and a CSV writer), so memory holds one session's table at a time.
@@ -74,7 +95,8 @@ def assemble_cohort_table(inputs: dict[str, str], metadata: dict[str, dict[str, 
     output = Path(output)
     output.parent.mkdir(parents=True, exist_ok=True)
     sessions = list(inputs)
-    schema = _cohort_schema(inputs, metadata, meta_columns, kind="cohort table")
+    schema = _cohort_schema(inputs, metadata, meta_columns, kind="cohort table",
+                            selections=selections)
     tmp = temporary_sibling(output)
     tmp_csv = temporary_sibling(Path(csv_output)) if csv_output else None
     rows = 0
@@ -82,7 +104,7 @@ def assemble_cohort_table(inputs: dict[str, str], metadata: dict[str, dict[str, 
         with pq.ParquetWriter(tmp, schema, compression="zstd") as writer:
             csv_writer = pacsv.CSVWriter(tmp_csv, schema.remove_metadata()) if tmp_csv else None
             for session in sessions:
-                table = read_parquet_checked(inputs[session], session=session)
+                table = _session_part(inputs, selections, session)
                 table = _conform(_with_metadata(table, metadata[session], meta_columns), schema)
                 writer.write_table(table.replace_schema_metadata(schema.metadata))
                 if csv_writer is not None:
@@ -104,18 +126,29 @@ def assemble_cohort_table(inputs: dict[str, str], metadata: dict[str, dict[str, 
     return rows
 
 
+def _session_part(inputs: dict[str, str], selections: dict[str, str] | None,
+                  session: str) -> pa.Table:
+    table = read_parquet_checked(inputs[session], session=session)
+    return _with_included(table, selections[session] if selections else None, session=session)
+
+
 def _cohort_schema(inputs: dict[str, str], metadata: dict[str, dict[str, str]],
-                   meta_columns: list[str], *, kind: str) -> pa.Schema:
+                   meta_columns: list[str], *, kind: str,
+                   selections: dict[str, str] | None = None) -> pa.Schema:
     """One schema for every session's table with the metadata columns in front (only the
     schemas are read)."""
     probe = [_with_metadata(read_schema_checked(path, session=s).empty_table(), metadata[s],
                             meta_columns) for s, path in inputs.items()]
+    if selections:
+        probe = [p.drop_columns([c for c in ("included",) if c in p.column_names])
+                 .append_column("included", pa.array([], pa.bool_())) for p in probe]
     schema = _unify(probe) if probe else pa.schema([(c, pa.string()) for c in meta_columns])
     return schema.with_metadata({METADATA_KEY: json.dumps({"kind": kind}).encode()})
 
 
 def assemble_cohort_dataset(inputs: dict[str, str], metadata: dict[str, dict[str, str]], *,
-                            meta_columns: list[str], output: str | os.PathLike) -> int:
+                            meta_columns: list[str], output: str | os.PathLike,
+                            selections: dict[str, str] | None = None) -> int:
     """Write a partitioned cohort dataset: ``output/{session}.parquet`` per session.
 
     Every file has the sheet's metadata columns in front and one common schema, so pyarrow,
@@ -131,12 +164,13 @@ def assemble_cohort_dataset(inputs: dict[str, str], metadata: dict[str, dict[str
     output = Path(output)
     output.parent.mkdir(parents=True, exist_ok=True)
     sessions = list(inputs)
-    schema = _cohort_schema(inputs, metadata, meta_columns, kind="cohort dataset part")
+    schema = _cohort_schema(inputs, metadata, meta_columns, kind="cohort dataset part",
+                            selections=selections)
     tmp = Path(tempfile.mkdtemp(prefix=f".{output.name}.", suffix=".tmp", dir=output.parent))
     rows = 0
     try:
         for session in sessions:
-            table = read_parquet_checked(inputs[session], session=session)
+            table = _session_part(inputs, selections, session)
             table = _conform(_with_metadata(table, metadata[session], meta_columns), schema)
             part = tmp / f"{session}.parquet"
             pq.write_table(table.replace_schema_metadata(schema.metadata), part,
@@ -157,16 +191,19 @@ def assemble_cohort_dataset(inputs: dict[str, str], metadata: dict[str, dict[str
 
 
 def run_cohort_table(table: str, inputs: dict[str, str], metadata: dict, *,
-                     output: str | os.PathLike, csv_output: str | None = None) -> int:
+                     output: str | os.PathLike, csv_output: str | None = None,
+                     selections: dict[str, str] | None = None) -> int:
     """Entry of rules cohort_table and cohort_dataset: one per-session table over every
-    session, a single file (with its CSV copy) or, for COHORT_DATASETS, a dataset folder."""
+    session, a single file (with its CSV copy) or, for COHORT_DATASETS, a dataset folder.
+    Per-unit tables (PER_UNIT_TABLES) gain ``included`` from each session's unit_selection."""
     from spikevar.base.layout import COHORT_DATASETS
 
     if table in COHORT_DATASETS:
         return assemble_cohort_dataset(inputs, metadata["rows"],
-                                       meta_columns=metadata["columns"], output=output)
+                                       meta_columns=metadata["columns"], output=output,
+                                       selections=selections)
     return assemble_cohort_table(inputs, metadata["rows"], meta_columns=metadata["columns"],
-                                 output=output, csv_output=csv_output)
+                                 output=output, csv_output=csv_output, selections=selections)
 
 
 FAILED_SCHEMA = pa.schema([("session", pa.string()), ("rule", pa.string()),

@@ -22,7 +22,7 @@ from spikevar.base.errors import SpikevarInputError
 from spikevar.base.parquet_io import SPIKE_TABLE_OPTIONS, sha256_of_file, write_parquet_atomic
 from spikevar.base.unit_order import unit_sort_order
 from spikevar.inputs import ordered_scan, readers, time_units
-from spikevar.inputs.settings import ColumnNames
+from spikevar.inputs.settings import ColumnNames, SpikeArrayFiles
 
 log = logging.getLogger(__name__)
 
@@ -330,8 +330,15 @@ def empty_events() -> pa.Table:
     return EVENTS_SCHEMA.empty_table()
 
 
-def _read_raw(path: Path, *, columns: ColumnNames, kind: str) -> tuple[pa.Table, bool, bool]:
-    """Read a raw table; returns (table, is_text, is_nwb)."""
+def _read_raw(path: Path, *, columns: ColumnNames, kind: str,
+              arrays: SpikeArrayFiles | None = None) -> tuple[pa.Table, bool, bool]:
+    """Read a raw table; returns (table, is_text, is_nwb). A spikes folder is read as NumPy
+    arrays named by ``arrays``."""
+    if kind == "spikes" and path.is_dir():
+        arrays = arrays or SpikeArrayFiles()
+        return readers.read_spike_array_folder(
+            path, times_file=arrays.times, units_file=arrays.units, unit_column=columns.unit,
+            time_column=columns.time), False, False
     fmt = readers.table_format(path)
     if fmt == ".nwb":
         if kind == "spikes":
@@ -351,20 +358,27 @@ def _check_readable(path: Path, *, session: str) -> None:
     if not path.exists():
         raise SpikevarInputError("The file does not exist.", session=session, path=str(path),
                                  fix="correct the path in the sessions sheet.")
+    if path.is_dir():
+        return  # a folder of spike arrays: its files are checked when read
     if path.stat().st_size == 0:
         raise SpikevarInputError("The file is empty (0 bytes).", session=session, path=str(path),
                                  fix="check that the export finished and re-export it.")
 
 
 def _ingest_spikes(path: Path, *, session, columns, time_unit, sampling_rate_hz, hasher,
-                   span=None):
+                   span=None, arrays: SpikeArrayFiles | None = None):
     """Read and normalise the spike table; the source's sha256 is computed by ``hasher`` (a
     one-thread pool) while the rows are checked and written, and returned as a future."""
     _check_readable(path, session=session)
-    raw, is_text, is_nwb = _read_raw(path, columns=columns, kind="spikes")
+    raw, is_text, is_nwb = _read_raw(path, columns=columns, kind="spikes", arrays=arrays)
     # hashlib releases the GIL: hashing the (now cached) file on the second core while this
     # thread checks and writes the table makes the provenance record cost no wall time
-    digest = hasher.submit(sha256_of_file, path)
+    if path.is_dir():
+        arrays = arrays or SpikeArrayFiles()
+        digest = hasher.submit(lambda: {name: sha256_of_file(path / name)
+                                        for name in (arrays.times, arrays.units)})
+    else:
+        digest = hasher.submit(sha256_of_file, path)
     declared = "s" if is_nwb else time_unit
     spikes, report = normalise_spikes(raw, columns=columns, time_unit=declared,
                                       sampling_rate_hz=sampling_rate_hz, text_source=is_text)
@@ -436,8 +450,12 @@ def ingest_session(
     spikes_out: str | Path,
     events_out: str | Path,
     span: tuple[float, float] | None = None,
+    arrays: SpikeArrayFiles | None = None,
 ) -> dict:
     """Read, validate and write one session's normalised ``spikes.parquet`` and ``events.parquet``.
+
+    ``spikes_path`` may be a folder of NumPy arrays (file names ``arrays``, config
+    ``spike_arrays``); its ``source_sha256`` is then ``{file name: sha256}``.
 
     Nothing is written unless both tables are valid; each output is written atomically. Raw files
     are only opened for reading. ``span`` is the declared recording span from the sheet
@@ -452,16 +470,16 @@ def ingest_session(
         return _ingest_session(session=session, spikes_path=Path(spikes_path),
                                events_path=events_path, columns=columns, time_unit=time_unit,
                                sampling_rate_hz=sampling_rate_hz, spikes_out=spikes_out,
-                               events_out=events_out, hasher=hasher,
+                               events_out=events_out, hasher=hasher, arrays=arrays,
                                span=None if span is None else tuple(map(float, span)))
 
 
 def _ingest_session(*, session, spikes_path, events_path, columns, time_unit, sampling_rate_hz,
-                    spikes_out, events_out, hasher, span) -> dict:
+                    spikes_out, events_out, hasher, span, arrays=None) -> dict:
     try:
         spikes, spikes_meta, digest = _ingest_spikes(
             spikes_path, session=session, columns=columns, time_unit=time_unit,
-            sampling_rate_hz=sampling_rate_hz, hasher=hasher, span=span)
+            sampling_rate_hz=sampling_rate_hz, hasher=hasher, span=span, arrays=arrays)
     except SpikevarInputError as err:
         raise err.with_context(session=session, path=str(spikes_path)) from None
     declared = span is not None

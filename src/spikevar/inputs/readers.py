@@ -183,3 +183,55 @@ def as_text_column(column, *, name: str):
             f"The column holds {column.type} values, which cannot be read as ids or labels.",
             fix="store unit ids and condition labels as text or integers, one per row.",
             where=f"column {name!r}") from None
+
+
+def read_spike_array_folder(folder: str | Path, *, times_file: str, units_file: str,
+                            unit_column: str, time_column: str) -> pa.Table:
+    """A folder of two NumPy arrays (every spike's time or sample index, and its unit id) as a
+    spike table with the configured column names. The arrays are memory-mapped, not loaded.
+
+    Refused, naming the file and the config key: a missing file, an array that is not one
+    value per spike (1-D, or n x 1), times that are not numbers, unit ids that are not
+    integers or text, and arrays of unequal length.
+    """
+    folder = Path(folder)
+    arrays = {}
+    for key, name, config_key in (("times", times_file, "spike_arrays.times"),
+                                  ("units", units_file, "spike_arrays.units")):
+        path = folder / name
+        if not path.is_file():
+            found = ", ".join(sorted(p.name for p in folder.glob("*.npy"))) or "none"
+            raise SpikevarInputError(
+                f"The spike folder has no file {name} (.npy files found: {found}).",
+                fix=f"set config {config_key} to the file holding every spike's {key}, or "
+                    "add the file.", path=str(path))
+        try:
+            array = np.load(path, mmap_mode="r", allow_pickle=False)
+        except (ValueError, OSError) as exc:
+            raise SpikevarInputError(
+                f"The file could not be read as a NumPy array: {str(exc).splitlines()[0]}",
+                fix="save it with numpy.save (no pickled objects).", path=str(path)) from None
+        if array.ndim == 2 and array.shape[1] == 1:
+            array = array[:, 0]
+        if array.ndim != 1:
+            raise SpikevarInputError(
+                f"The array has shape {array.shape}; one value per spike is needed.",
+                fix="save a 1-D array (or n x 1) with one entry per spike.", path=str(path))
+        arrays[key] = (array, path)
+    times, times_path = arrays["times"]
+    units, units_path = arrays["units"]
+    if times.dtype.kind not in "iuf":
+        raise SpikevarInputError(
+            f"The spike times are of type {times.dtype}, not numbers.",
+            fix="store times (or sample indices) as integers or floats.", path=str(times_path))
+    if units.dtype.kind not in "iuUS":
+        raise SpikevarInputError(
+            f"The unit ids are of type {units.dtype}; integers or text are needed.",
+            fix="store one integer or text id per spike.", path=str(units_path))
+    if len(times) != len(units):
+        raise SpikevarInputError(
+            f"{times_path.name} holds {len(times)} values but {units_path.name} holds "
+            f"{len(units)}; both need one entry per spike.",
+            fix="export both arrays from the same sorting.", path=str(folder))
+    unit_text = pc.cast(pa.array(np.asarray(units)), pa.string())
+    return pa.table({unit_column: unit_text, time_column: pa.array(np.asarray(times))})

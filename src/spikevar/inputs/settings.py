@@ -19,3 +19,23 @@ class ColumnNames:
     @classmethod
     def from_config(cls, columns: dict | None) -> ColumnNames:
         return settings_from(cls, columns, section="columns")
+
+
+@dataclass(frozen=True)
+class UnitLabelColumns:
+    """Config ``unit_labels``: column names of the sheet's unit label tables."""
+
+    #: the unit id column (ids as in the spike table)
+    unit: str = "unit"
+    #: the label column (e.g. good, mua, noise)
+    label: str = "label"
+
+
+@dataclass(frozen=True)
+class SpikeArrayFiles:
+    """Config ``spike_arrays``: file names inside a sheet ``spikes`` folder of NumPy arrays."""
+
+    #: every spike's time (or sample index, with time_unit samples), one value per spike
+    times: str = "times.npy"
+    #: every spike's unit id (integers or text), same length as times
+    units: str = "units.npy"

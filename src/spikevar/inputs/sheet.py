@@ -17,7 +17,10 @@ SESSION_ID = re.compile(f"^{SESSION_ID_PATTERN}$")
 REQUIRED = ("session", "subject", "spikes")
 #: Sheet columns that change how a session is read (the others are metadata for cohort tables).
 INGEST_COLUMNS = ("spikes", "events", "time_unit", "sampling_rate_hz")
-KNOWN = (*REQUIRED, "events", "group", "time_unit", "sampling_rate_hz", "start_s", "duration_s")
+KNOWN = (*REQUIRED, "events", "unit_labels", "group", "time_unit", "sampling_rate_hz", "start_s",
+         "duration_s")
+#: sheet columns naming files (relative paths are read from the sheet's folder)
+FILE_COLUMNS = ("spikes", "events", "unit_labels")
 
 
 def _read(path: Path) -> pd.DataFrame:
@@ -53,7 +56,8 @@ def load_sheet(path: str | os.PathLike, *, default_time_unit: str = "s",
                default_sampling_rate_hz: float | None = None) -> pd.DataFrame:
     """Read the sessions sheet and check it before any job runs.
 
-    Returns a DataFrame with one row per session, ``spikes``/``events`` as absolute paths,
+    Returns a DataFrame with one row per session, ``spikes``/``events``/``unit_labels`` as
+    absolute paths (the last two empty when not given),
     ``group`` defaulting to ``"all"``, ``time_unit`` and ``sampling_rate_hz`` filled from the
     defaults, and every other column kept as metadata (text).
 
@@ -81,7 +85,8 @@ def load_sheet(path: str | os.PathLike, *, default_time_unit: str = "s",
         raise SpikevarInputError("The sessions sheet has no rows.", path=str(path),
                                  fix="add one row per session.")
     base = path.parent
-    for column in ("events", "group", "time_unit", "sampling_rate_hz", "start_s", "duration_s"):
+    for column in ("events", "unit_labels", "group", "time_unit", "sampling_rate_hz", "start_s",
+                   "duration_s"):
         if column not in frame.columns:
             frame[column] = ""
     problems_missing = []
@@ -98,7 +103,7 @@ def load_sheet(path: str | os.PathLike, *, default_time_unit: str = "s",
             raise SpikevarInputError(f"Session '{sid}' has no subject.", path=str(path),
                                      where=f"{where}, column subject",
                                      fix="write the animal/participant id in 'subject'.")
-        for column in ("spikes", "events"):
+        for column in FILE_COLUMNS:
             value = getattr(row, column)
             if column == "spikes" and value == "":
                 raise SpikevarInputError(f"Session '{sid}' has no spike file.", path=str(path),
@@ -119,7 +124,8 @@ def load_sheet(path: str | os.PathLike, *, default_time_unit: str = "s",
             "Input file(s) not found: " + "; ".join(problems_missing) + ".", path=str(path),
             fix="correct the paths (relative paths are read from the sheet's folder).")
     frame["spikes"] = [str((base / v).resolve()) for v in frame["spikes"]]
-    frame["events"] = [str((base / v).resolve()) if v else "" for v in frame["events"]]
+    for column in ("events", "unit_labels"):
+        frame[column] = [str((base / v).resolve()) if v else "" for v in frame[column]]
     shared = frame["spikes"][frame["spikes"].duplicated(keep=False)]
     if len(shared):
         first = shared.iloc[0]

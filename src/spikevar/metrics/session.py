@@ -21,7 +21,8 @@ from spikevar.base.spike_arrays import SpikeArrays, load_spikes, recording_span
 from spikevar.metrics.count_fano import count_fano_table
 from spikevar.metrics.fano_timecourse import SlidingWindows, fano_timecourse_table
 from spikevar.metrics.isi import unit_isi_table
-from spikevar.metrics.settings import MetricSettings
+from spikevar.metrics.settings import MetricSettings, StabilitySettings
+from spikevar.metrics.stability import block_statistics, stable_flags
 
 log = logging.getLogger(__name__)
 
@@ -29,8 +30,11 @@ log = logging.getLogger(__name__)
 MIN_INTERVALS_FOR_FF_CV2 = 20
 
 def unit_tables(spikes: SpikeArrays, *, settings: MetricSettings,
-                span: tuple[float, float] | None = None) -> dict[str, pd.DataFrame]:
-    """The whole-recording tables ``units`` and ``count_fano`` (without the session column)."""
+                span: tuple[float, float] | None = None,
+                stability: StabilitySettings | None = None) -> dict[str, pd.DataFrame]:
+    """The whole-recording tables ``units``, ``count_fano`` and ``unit_blocks`` (without the
+    session column)."""
+    stability = stability or StabilitySettings()
     start, stop = recording_span(spikes, span)
     units = unit_isi_table(spikes, duration_s=stop - start, settings=settings)
     counts = count_fano_table(spikes, windows_s=settings.counting_windows_s, start_s=start,
@@ -47,7 +51,19 @@ def unit_tables(spikes: SpikeArrays, *, settings: MetricSettings,
     units["fano_to_cv2_reason"] = np.where(
         np.isnan(units["mean_isi_s"].to_numpy()), "no ISI statistics",
         np.where(short, f"longest window under {MIN_INTERVALS_FOR_FF_CV2} mean intervals", ""))
-    return {"units": units, "count_fano": counts}
+    bounds = spikes.bounds()
+    has = np.diff(bounds) > 0
+    first, last = np.full(spikes.n_units, np.nan), np.full(spikes.n_units, np.nan)
+    first[has] = spikes.times[bounds[:-1][has]]
+    last[has] = spikes.times[bounds[1:][has] - 1]
+    units["first_spike_s"], units["last_spike_s"] = first, last
+    blocks, drift = block_statistics(spikes, start_s=start, stop_s=stop, settings=stability)
+    drift = drift.set_index("unit").reindex(units["unit"].astype(str))
+    units["rate_drift_pvalue"] = drift["rate_drift_pvalue"].to_numpy(float)
+    units["rate_drift_reason"] = drift["rate_drift_reason"].fillna("").to_numpy(object)
+    units["stable"] = stable_flags(units["rate_drift_pvalue"].to_numpy(),
+                                   alpha=stability.alpha)
+    return {"units": units, "count_fano": counts, "unit_blocks": blocks}
 
 
 def timecourse_table(spikes: SpikeArrays, events: pd.DataFrame, *, windows: SlidingWindows,
@@ -81,9 +97,9 @@ def timecourse_table(spikes: SpikeArrays, events: pd.DataFrame, *, windows: Slid
 def compute_tables(spikes: SpikeArrays, events: pd.DataFrame, *, settings: MetricSettings,
                    windows: SlidingWindows, span: tuple[float, float] | None = None
                    ) -> dict[str, pd.DataFrame]:
-    """All three per-session tables (without the session column); the rules write them in two
-    jobs (``session_metrics``, ``session_timecourse``) so that event settings rerun only the
-    event-aligned tables."""
+    """Every per-session metric table (without the session column); the rules write them in
+    two jobs (``session_metrics``, ``session_timecourse``) so that event settings rerun only
+    the event-aligned tables."""
     tables = unit_tables(spikes, settings=settings, span=span)
     tables["fano_timecourse"] = timecourse_table(spikes, events, windows=windows, span=span)
     return tables
@@ -124,19 +140,22 @@ def alignment_times(events: pd.DataFrame, names: list[str], *, event_time_column
 
 
 def run_session_metrics(*, session: str, spikes_path, outputs: dict[str, str],
-                        settings: MetricSettings, span: tuple[float, float] | None = None
-                        ) -> None:
-    """Read a session's spikes, compute ``units`` and ``count_fano``, write them atomically."""
+                        settings: MetricSettings, stability: StabilitySettings,
+                        span: tuple[float, float] | None = None) -> None:
+    """Read a session's spikes, compute ``units``, ``count_fano`` and ``unit_blocks``, write
+    them atomically."""
     spikes = load_spikes(spikes_path, session=session)
-    tables = unit_tables(spikes, settings=settings, span=span)
-    meta = {"session": session, "settings": asdict(settings),
+    tables = unit_tables(spikes, settings=settings, span=span, stability=stability)
+    meta = {"session": session, "settings": asdict(settings), "stability": asdict(stability),
             "span_s": recording_span(spikes, span), "span_declared": span is not None}
     for name, frame in tables.items():
         frame.insert(0, "session", session)
         write_parquet_atomic(frame_to_arrow(frame), Path(outputs[name]), metadata=meta)
     few = int((tables["units"]["isi_reason"] != "").sum())
-    log.info("session %s: %d units (%d without ISI metrics), %d count rows", session,
-             len(tables["units"]), few, len(tables["count_fano"]))
+    drifting = int((~tables["units"]["stable"]).sum())
+    log.info("session %s: %d units (%d without ISI metrics, %d not stable over the session), "
+             "%d count rows, %d unit blocks", session, len(tables["units"]), few, drifting,
+             len(tables["count_fano"]), len(tables["unit_blocks"]))
 
 
 def load_aligned_session(session: str, spikes_path, events_path, *, alignments: list[str],

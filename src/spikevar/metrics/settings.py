@@ -36,3 +36,36 @@ class SlidingWindows:
     def left_edges(self) -> np.ndarray:
         n = int(np.floor((self.stop_s - self.start_s - self.width_s) / self.step_s + 1e-9)) + 1
         return self.start_s + self.step_s * np.arange(max(n, 0))
+
+
+@dataclass(frozen=True)
+class StabilitySettings:
+    """Config ``stability``: blocks of the recording and the drift test's level."""
+
+    #: length of the consecutive blocks of unit_blocks and of the drift test, seconds
+    block_s: float = 60.0
+    #: sub-windows of the within-block count Fano factor, seconds
+    subwindow_s: float = 1.0
+    #: a unit is ``stable`` when its rate_drift_pvalue is at least this
+    alpha: float = 0.01
+
+
+@dataclass(frozen=True)
+class InclusionSettings:
+    """Config ``inclusion``: which units the population and group statistics use. Every
+    default keeps every unit."""
+
+    #: fewest spikes in the recording (0: no limit)
+    min_spikes: int = 0
+    #: lowest mean rate over the recording span, Hz (0: no limit)
+    min_rate_hz: float = 0.0
+    #: largest fraction of ISIs shorter than metrics.refractory_threshold_s (null: no limit)
+    max_violation_fraction: float | None = None
+    #: largest contamination estimate, contamination_hill (Hill et al. 2011; null: no limit)
+    max_contamination: float | None = None
+    #: accepted labels of the sheet's unit_labels tables, e.g. [good] (null: every unit)
+    labels: tuple[str, ...] | None = None
+    #: fewest trials of every condition while the unit was recorded (0: no limit)
+    min_trials_per_condition: int = 0
+    #: leave out units whose rate drifts over the session (units.stable false)
+    require_stable: bool = False

@@ -22,25 +22,51 @@ def portable_path(path: str) -> str:
     return path if relative.startswith("..") else relative
 
 
-def ingest_inputs(sheet: pd.DataFrame, session: str) -> dict[str, str]:
-    """Raw files of a session: ``spikes`` and, when given, ``events``."""
+def ingest_inputs(sheet: pd.DataFrame, session: str, config: dict) -> dict[str, str]:
+    """Raw files of a session: ``spikes`` and, when given, ``events``. For a folder of spike
+    arrays, ``spikes`` is its times file and ``spike_units`` its unit ids file (files, so
+    that rewriting one of them inside the folder reruns the session); when one is missing,
+    the folder itself, so that ingestion names the missing file."""
     row = sheet.loc[session]
-    inputs = {"spikes": portable_path(row["spikes"])}
+    files = [os.path.join(row["spikes"], config["spike_arrays"][k]) for k in ("times", "units")]
+    if os.path.isdir(row["spikes"]) and all(os.path.isfile(f) for f in files):
+        inputs = {"spikes": portable_path(files[0]), "spike_units": portable_path(files[1])}
+    else:
+        inputs = {"spikes": portable_path(row["spikes"])}
     if row["events"]:
         inputs["events"] = portable_path(row["events"])
     return inputs
+
+
+def has_unit_labels(sheet: pd.DataFrame, session: str) -> bool:
+    return bool(sheet.loc[session, "unit_labels"]) if "unit_labels" in sheet.columns else False
+
+
+def unit_labels_input(sheet: pd.DataFrame, session: str) -> str:
+    """The raw unit label table of a session (rule ingest_unit_labels)."""
+    return portable_path(sheet.loc[session, "unit_labels"])
+
+
+def selection_inputs(sheet: pd.DataFrame, session: str, layout) -> dict[str, str]:
+    """The session's normalised unit labels, when the sheet names a label table."""
+    if not has_unit_labels(sheet, session):
+        return {}
+    return {"labels": layout.session_table(session, "unit_labels")}
 
 
 def ingest_settings(sheet: pd.DataFrame, session: str, config: dict) -> dict:
     """How to read a session's raw tables: time unit, sampling rate and column names."""
     row = sheet.loc[session]
     rate = float(row["sampling_rate_hz"])
-    return {
+    settings = {
         "time_unit": row["time_unit"],
         "sampling_rate_hz": None if math.isnan(rate) else rate,
         "columns": dict(config["columns"]),
         "span": declared_span(sheet, session),
     }
+    if os.path.isdir(row["spikes"]):  # only folder sessions rerun when the file names change
+        settings["spike_arrays"] = dict(config["spike_arrays"])
+    return settings
 
 
 def declared_span(sheet: pd.DataFrame, session: str) -> list[float] | None:
@@ -67,7 +93,7 @@ def sheet_records(sheet: pd.DataFrame) -> list[dict]:
     records = []
     for row in sheet.reset_index(drop=True).to_dict("records"):
         row = {k: (None if isinstance(v, float) and math.isnan(v) else v) for k, v in row.items()}
-        for key in ("spikes", "events"):
+        for key in ("spikes", "events", "unit_labels"):
             if row.get(key):
                 row[key] = portable_path(row[key])
         records.append(row)

@@ -14,15 +14,24 @@ from spikevar.base.errors import SpikevarInputError
 from spikevar.base.settings import settings_from, unknown_key_error
 from spikevar.cohort.settings import BootstrapSettings, CohortSettings
 from spikevar.figures.settings import FigureSettings
-from spikevar.inputs.settings import ColumnNames
-from spikevar.metrics.settings import MetricSettings, SlidingWindows
+from spikevar.inputs.settings import ColumnNames, SpikeArrayFiles, UnitLabelColumns
+from spikevar.metrics.settings import (
+    InclusionSettings,
+    MetricSettings,
+    SlidingWindows,
+    StabilitySettings,
+)
 from spikevar.population.settings import MeanMatchSettings, SharedSettings, epochs_from
 from spikevar.recovery.settings import RecoverySettings
 
 #: config section -> the one settings dataclass that reads it
 SECTIONS = {
     "columns": ColumnNames,
+    "spike_arrays": SpikeArrayFiles,
     "metrics": MetricSettings,
+    "stability": StabilitySettings,
+    "inclusion": InclusionSettings,
+    "unit_labels": UnitLabelColumns,
     "timecourse": SlidingWindows,
     "recovery": RecoverySettings,
     "figures": FigureSettings,

@@ -15,6 +15,8 @@ log = logging.getLogger(__name__)
 def run_population_fano(*, timecourse_path, output, settings: MeanMatchSettings,
                         seed: int) -> None:
     timecourse = read_frame(timecourse_path)
+    if "included" in timecourse.columns:  # the cohort dataset: included units only
+        timecourse = timecourse[timecourse["included"].astype(bool)]
     table = population_fano_table(timecourse, settings=settings, seed=seed)
     write_parquet_atomic(frame_to_arrow(table), output,
                          metadata={"settings": asdict(settings), "seed": seed})

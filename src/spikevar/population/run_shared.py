@@ -6,7 +6,9 @@ from __future__ import annotations
 import logging
 from dataclasses import asdict
 
-from spikevar.base.parquet_io import frame_to_arrow, write_parquet_atomic
+import numpy as np
+
+from spikevar.base.parquet_io import frame_to_arrow, read_parquet_checked, write_parquet_atomic
 from spikevar.base.spike_arrays import recording_span
 from spikevar.metrics.session import load_aligned_session
 from spikevar.population.shared import TABLES, session_seed, shared_tables
@@ -14,18 +16,23 @@ from spikevar.population.shared import TABLES, session_seed, shared_tables
 log = logging.getLogger(__name__)
 
 
-def run_session_shared(*, session: str, spikes_path, events_path, outputs: dict[str, str],
-                       alignments: list[str], event_time_column: str,
+def run_session_shared(*, session: str, spikes_path, events_path, selection_path,
+                       outputs: dict[str, str], alignments: list[str], event_time_column: str,
                        epochs: dict[str, tuple[float, float]], windows, settings,
                        seed: int, span: tuple[float, float] | None = None) -> None:
-    """Read a session's spikes and events, write its five shared-variability tables."""
+    """Read a session's spikes, events and unit selection, write its five shared-variability
+    tables from the included units."""
     spikes, events, times = load_aligned_session(session, spikes_path, events_path,
                                                  alignments=alignments,
                                                  event_time_column=event_time_column)
+    selection = read_parquet_checked(selection_path, session=session,
+                                     columns=["unit", "included"]).to_pandas()
+    included = set(selection.loc[selection["included"].astype(bool), "unit"].astype(str))
+    keep = np.isin(spikes.labels.astype(str), list(included))
     whole = recording_span(spikes, span)
     tables = shared_tables(spikes, events, alignments=times, epochs=epochs, windows=windows,
                            settings=settings, span=tuple(whole),
-                           rng=session_seed(seed, session))
+                           rng=session_seed(seed, session), units=keep)
     meta = {"session": session, "shared": asdict(settings), "timecourse": asdict(windows),
             "epochs": {k: list(v) for k, v in epochs.items()}, "alignments": list(times),
             "seed": seed, "span_s": whole, "span_declared": span is not None}
@@ -34,6 +41,7 @@ def run_session_shared(*, session: str, spikes_path, events_path, outputs: dict[
         frame.insert(0, "session", session)
         write_parquet_atomic(frame_to_arrow(frame), outputs[name], metadata=meta)
     structure = tables["population_structure"]
+    log.info("session %s: %d of %d units included", session, int(keep.sum()), len(keep))
     log.info("session %s: %d unit pairs, %d condition x epoch factor analyses (n_factors %s)",
              session, len(tables["pair_correlations"]), len(structure),
              ", ".join(map(str, structure["n_factors"].tolist())) or "none")

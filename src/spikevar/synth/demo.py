@@ -8,7 +8,8 @@ flash-locked responses and trial-to-trial gain variability. In the ``standard`` 
 of a session also share one fluctuating gain between flashes that each flash quenches while its
 response lasts, so shared variability (noise correlations, percent shared) drops at flash onset;
 in the ``enriched`` group that shared gain is weak. Sessions are written in mixed formats
-and time units (CSV in s, gzipped TSV in ms, Parquet in s, CSV in samples at 30 kHz, NWB) so the
+and time units (CSV in s, gzipped TSV in ms, Parquet in s, a folder of NumPy arrays of sample
+indices at 30 kHz with a unit label table, as a spike sorter exports them, and NWB) so the
 demo exercises every reader.
 
 Run ``python -m spikevar.synth.demo --out demo/cohort``.
@@ -30,7 +31,7 @@ SUBJECTS = {
     "fen": "standard", "moss": "standard", "wren": "standard",
     "ash": "enriched", "sorrel": "enriched", "tansy": "enriched",
 }
-FORMATS = ("csv_s", "tsvgz_ms", "parquet_s", "csv_samples", "nwb")
+FORMATS = ("csv_s", "tsvgz_ms", "parquet_s", "npy_samples", "nwb")
 SAMPLING_RATE_HZ = 30_000.0
 CONDITIONS = {"dim": 12.0, "bright": 30.0}  # added peak rate of the flash response, Hz
 #: CV of the gain the units of one session share between flashes, per group (by design)
@@ -122,7 +123,7 @@ def write_session(folder: Path, session: str, subject: str, spikes: pd.DataFrame
                   events: pd.DataFrame, fmt: str) -> dict:
     """Write one session's files in format ``fmt``; return its sheet row."""
     row = {"session": session, "subject": subject, "spikes": "", "events": "",
-           "time_unit": "", "sampling_rate_hz": ""}
+           "unit_labels": "", "time_unit": "", "sampling_rate_hz": ""}
     if fmt == "csv_s":
         spikes.to_csv(folder / f"{session}_spikes.csv", index=False, float_format="%.6f")
         events.to_csv(folder / f"{session}_events.csv", index=False, float_format="%.6f")
@@ -141,15 +142,22 @@ def write_session(folder: Path, session: str, subject: str, spikes: pd.DataFrame
         events.to_parquet(folder / f"{session}_events.parquet", index=False)
         row.update(spikes=f"{session}_spikes.parquet", events=f"{session}_events.parquet",
                    time_unit="s")
-    elif fmt == "csv_samples":
-        samples = np.round(spikes["time"] * SAMPLING_RATE_HZ).astype(np.int64)
-        spikes.assign(time=samples).to_csv(folder / f"{session}_spikes.csv", index=False)
+    elif fmt == "npy_samples":  # a sorter's export: sample indices, unit ids, unit labels
+        arrays = folder / f"{session}_sorted"
+        arrays.mkdir(exist_ok=True)
+        np.save(arrays / "times.npy", np.round(spikes["time"] * SAMPLING_RATE_HZ).astype(np.int64))
+        np.save(arrays / "units.npy", spikes["unit"].to_numpy().astype(str))
+        units = sorted(spikes["unit"].unique())
+        pd.DataFrame({"unit": units, "label": ["mua" if i % 7 == 6 else "good"
+                                                for i in range(len(units))]}).to_csv(
+            arrays / "unit_labels.tsv", sep="\t", index=False)
         ev = np.round(events["time"] * SAMPLING_RATE_HZ).astype(np.int64)
         lick = np.round(events["lick_time"] * SAMPLING_RATE_HZ).astype("Int64")
         events.assign(time=ev, lick_time=lick).to_csv(folder / f"{session}_events.csv",
                                                       index=False)
-        row.update(spikes=f"{session}_spikes.csv", events=f"{session}_events.csv",
-                   time_unit="samples", sampling_rate_hz=f"{SAMPLING_RATE_HZ:g}")
+        row.update(spikes=arrays.name, events=f"{session}_events.csv",
+                   unit_labels=f"{arrays.name}/unit_labels.tsv", time_unit="samples",
+                   sampling_rate_hz=f"{SAMPLING_RATE_HZ:g}")
     elif fmt == "nwb":
         write_nwb(folder / f"{session}.nwb", spikes, events, session, subject)
         row.update(spikes=f"{session}.nwb", events=f"{session}.nwb", time_unit="s")
@@ -177,8 +185,9 @@ def build_demo_cohort(out: str | Path, *, seed: int = 7, size: DemoSize | None =
                        data_origin="synthetic")
             rows.append(row)
             k += 1
-    sheet = pd.DataFrame(rows)[["session", "subject", "group", "spikes", "events", "time_unit",
-                                "sampling_rate_hz", "probe_depth_um", "data_origin"]]
+    sheet = pd.DataFrame(rows)[["session", "subject", "group", "spikes", "events", "unit_labels",
+                                "time_unit", "sampling_rate_hz", "probe_depth_um",
+                                "data_origin"]]
     path = folder / "sessions.tsv"
     sheet.to_csv(path, sep="\t", index=False)
     (folder / "README.md").write_text(
