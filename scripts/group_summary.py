@@ -16,5 +16,6 @@ with rule_job(snakemake, step="group_summary") as sm:  # noqa: F821
                       population_structure=sm.input.population_structure,
                       gain_variance=sm.input.gain_variance, summary_out=sm.output.summary,
                       differences_out=sm.output.differences, seed=sm.params.seed,
+                      factors=tuple(sm.params.factors),
                       settings=settings_from(BootstrapSettings, sm.params.bootstrap,
                                              section="bootstrap"))

@@ -12,6 +12,6 @@ from spikevar.population.settings import MeanMatchSettings  # noqa: E402
 
 with rule_job(snakemake, step="population_fano") as sm:  # noqa: F821
     run_population_fano(timecourse_path=sm.input[0], output=sm.output[0],
-                        seed=sm.params.seed,
+                        seed=sm.params.seed, factors=tuple(sm.params.factors),
                         settings=settings_from(MeanMatchSettings, sm.params.population,
                                                section="population"))

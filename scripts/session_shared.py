@@ -26,4 +26,5 @@ with rule_job(snakemake, step="shared") as sm:  # noqa: F821
         settings=settings_from(SharedSettings, sm.params.shared, section="shared"),
         seed=int(sm.params.seed),
         span=sm.params.span,
+        factors=tuple(sm.params.factors),
     )

@@ -20,4 +20,5 @@ with rule_job(snakemake, step="timecourse") as sm:  # noqa: F821
         alignments=list(sm.params.alignments),
         event_time_column=sm.params.event_time_column,
         span=sm.params.span,
+        factors=tuple(sm.params.factors),
     )

@@ -56,6 +56,8 @@ def test_each_rule_names_its_reason_and_reasons_accumulate():
         "5 trials of a condition while recorded, fewer than 10; "
         "rate drifts over the session (p = 1e-06)")
     assert list(chosen["included"]) == [True, False, False, False]
+    assert chosen.loc["2", "excluded_by"] == "min_spikes;min_rate_hz;max_contamination"
+    assert chosen.loc["1", "excluded_by"] == ""
 
 
 def test_labels_rule_uses_the_table_and_never_guesses():

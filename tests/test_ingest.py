@@ -373,3 +373,34 @@ def test_folder_arrays_of_unequal_length_or_wrong_type_are_refused(tmp_path):
     expect_error(tmp_path, folder, "not numbers", "times.npy")
     folder = spike_folder(tmp_path, np.zeros((3, 2)), np.arange(3))
     expect_error(tmp_path, folder, "shape (3, 2)")
+
+
+def test_conditions_of_several_factors_combine_and_keep_each_factor(tmp_path):
+    spikes = tmp_path / "spk.csv"
+    SPIKES.to_csv(spikes, index=False)
+    events = tmp_path / "ev.csv"
+    pd.DataFrame({"time": [0.2, 0.6, 1.0], "contrast": ["high", "low", "high"],
+                  "side": ["left", "left", "right"]}).to_csv(events, index=False)
+    columns = ColumnNames.from_config({"event_condition": ["contrast", "side"]})
+    _, ev, _ = run(tmp_path, spikes, events, columns=columns)
+    assert ev["condition"].tolist() == ["contrast=high; side=left", "contrast=low; side=left",
+                                        "contrast=high; side=right"]
+    assert ev["contrast"].tolist() == ["high", "low", "high"]
+    assert ev["side"].tolist() == ["left", "left", "right"]
+    pd.DataFrame({"time": [0.2, 0.6], "contrast": ["high", ""],
+                  "side": ["left", "left"]}).to_csv(events, index=False)
+    expect_error(tmp_path / "second", spikes, "no condition factor 'contrast'", "row(s) 2",
+                 events_path=events, columns=columns)
+
+
+def test_factor_columns_are_parsed_back_from_the_label():
+    from spikevar.base.conditions import with_factor_columns
+
+    frame = pd.DataFrame({"metric": ["a", "b", "c"],
+                          "condition": ["contrast=high; side=left", "", "contrast=low; side=right"],
+                          "value": [1, 2, 3]})
+    out = with_factor_columns(frame, ("contrast", "side"))
+    assert list(out.columns) == ["metric", "condition", "contrast", "side", "value"]
+    assert out["contrast"].tolist() == ["high", "", "low"]
+    assert out["side"].tolist() == ["left", "", "right"]
+    assert with_factor_columns(frame, ()) is frame

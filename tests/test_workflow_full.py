@@ -2,13 +2,14 @@
 
 import os
 import shutil
+from pathlib import Path
 
 import pandas as pd
 import pyarrow.parquet as pq
 import pytest
 
 from conftest import run_snakemake
-from spikevar.base.layout import COHORT_DATASETS
+from spikevar.base.layout import COHORT_DATASETS, COHORT_FIGURES
 from spikevar.base.parquet_io import sha256_of_file
 from spikevar.cohort.report_pages import with_interval
 
@@ -238,8 +239,38 @@ def test_report_in_a_real_browser(full_run):
     cv = summary[(summary["metric"] == "isi_cv") & (summary["group"] == "standard")].iloc[0]
     assert with_interval(cv["mean"], cv["mean_ci_lo"], cv["mean_ci_hi"]) in text
     kinds = [item["kind"] for item in view.results]
-    n_figures = 8 + len(sheet)  # the cohort figures and one recovery figure per session
+    n_figures = len(COHORT_FIGURES) + len(sheet)  # and one recovery figure per session
     assert kinds.count("image/png") == n_figures
     assert kinds.count("text/html") == 2
     assert all(item["width"] > 300 for item in view.results if item["kind"] == "image/png")
     assert view.screenshot.read_bytes()[:4] == b"\x89PNG"
+
+
+def test_every_cohort_figure_renders_with_no_text_outside_it(full_run, tmp_path, monkeypatch):
+    """Every cohort figure of the small cohort is drawn again with each figure checked just
+    before it is saved: no visible text reaches outside the figure, and every file written is
+    a non-empty image."""
+    from spikevar.base.layout import COHORT_FIGURES, COHORT_RULE_INPUTS, ResultsLayout
+    from spikevar.figures import style
+    from spikevar.figures.run import run_cohort_figures
+
+    out, _, _ = full_run
+    layout = ResultsLayout(str(out))
+    clipped, saved = {}, []
+    original = style.save
+
+    def checked_save(fig, path, **kw):
+        clipped[Path(path).stem] = style.clipped_texts(fig)
+        saved.append(Path(path))
+        original(fig, path, **kw)
+
+    monkeypatch.setattr(style, "save", checked_save)
+    run_cohort_figures(inputs={t: layout.cohort_output(t)
+                               for t in COHORT_RULE_INPUTS["cohort_figures"]},
+                       outputs={name: str(tmp_path / f"{name}.png") for name in COHORT_FIGURES})
+    assert set(clipped) == set(COHORT_FIGURES)
+    assert {name: texts for name, texts in clipped.items() if texts} == {}
+    for path in saved:
+        for file in (path, path.with_suffix(".svg")):
+            assert file.stat().st_size > 5_000, file
+        assert path.read_bytes()[:4] == b"\x89PNG"

@@ -22,6 +22,7 @@ from spikevar.pipeline.fingerprints import code_fingerprint
 from spikevar.inputs.sheet import load_sheet
 from spikevar.pipeline.rule_inputs import (
     cohort_metadata,
+    condition_factors,
     ingest_inputs,
     selection_inputs,
     unit_labels_input,

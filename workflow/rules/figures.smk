@@ -15,7 +15,7 @@ rule cohort_figures:
         },
         **{f"{name}_svg": LAYOUT.cohort_figure(name, "svg") for name in COHORT_FIGURES},
     params:
-        code=code_fingerprint("figures.run", "figures.shared", "base.layout"),
+        code=code_fingerprint("figures.run", "figures.shared", "figures.quality", "base.layout"),
     log:
         **LAYOUT.cohort_logs("figures"),
     benchmark:

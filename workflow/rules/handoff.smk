@@ -21,6 +21,7 @@ rule handoff:
         **{f"schema_{t}": LAYOUT.dataset_schema(t) for t in COHORT_DATASETS},
     params:
         sheet=sheet_records(SHEET),
+        factors=condition_factors(config),
         config=config,
         repo=str(REPO),
         code=code_fingerprint("cohort.handoff", "cohort.data_dictionary", "cohort.tables"),

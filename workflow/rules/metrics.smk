@@ -34,6 +34,7 @@ rule session_timecourse:
     output:
         LAYOUT.session_table("{session}", "fano_timecourse"),
     params:
+        factors=condition_factors(config),
         timecourse=config["timecourse"],
         alignments=config["alignments"],
         event_time_column=config["columns"]["event_time"],

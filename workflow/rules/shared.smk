@@ -10,6 +10,7 @@ rule session_shared:
     output:
         **{t: LAYOUT.session_table("{session}", t) for t in SHARED_TABLES},
     params:
+        factors=condition_factors(config),
         shared=config["shared"],
         epochs=config["epochs"],
         timecourse=config["timecourse"],

@@ -49,7 +49,7 @@ STATISTICS_TABLES = ("population_fano", "group_summary", "group_differences", "s
                      "r_sc_by_rate")
 #: cohort figures (each written as PNG and SVG)
 COHORT_FIGURES = ("population_fano", "unit_metrics", "fano_by_window", "tau_vs_cv", "quality",
-                  "r_sc_vs_rate", "shared_over_time", "shared_structure")
+                  "stability", "r_sc_vs_rate", "shared_over_time", "shared_structure")
 FIGURE_FORMATS = ("png", "svg")
 #: the report's own pages (rule report_pages): its start page and the group tables as HTML
 REPORT_TABLES = ("group_summary", "group_differences")
@@ -63,7 +63,8 @@ REPORT_CATEGORIES = (
     ("Recovery fits by session", "ISI densities against the fitted models, goodness of fit"),
 )
 #: the report category of each cohort figure
-FIGURE_CATEGORY = {"quality": "Quality control", "r_sc_vs_rate": "Shared variability",
+FIGURE_CATEGORY = {"quality": "Quality control", "stability": "Quality control",
+                   "r_sc_vs_rate": "Shared variability",
                    "shared_over_time": "Shared variability",
                    "shared_structure": "Shared variability"}
 DEFAULT_FIGURE_CATEGORY = "Variability and recovery"
@@ -73,8 +74,9 @@ COHORT_RULE_INPUTS = {
     "group_summary": ("units", "count_fano", "recovery", "population_structure",
                       "gain_variance"),
     "shared_statistics": ("shared_timecourse", "pair_correlations"),
-    "cohort_figures": ("units", "count_fano", "recovery", "population_fano", "group_summary",
-                       "population_structure", "shared_over_time", "r_sc_by_rate"),
+    "cohort_figures": ("units", "unit_selection", "unit_blocks", "count_fano", "recovery",
+                       "population_fano", "group_summary", "population_structure",
+                       "shared_over_time", "r_sc_by_rate"),
 }
 
 #: per-session steps in pipeline order: (rule, step name used for its log, first output)

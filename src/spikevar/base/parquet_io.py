@@ -171,11 +171,13 @@ def dataset_parts(path: str | os.PathLike) -> list[Path]:
     return sorted(p for p in path.glob("*.parquet") if not p.name.startswith((".", "_")))
 
 
-def read_frame(path) -> pd.DataFrame:
-    """A checked Parquet read straight to a DataFrame (a file or a dataset folder)."""
+def read_frame(path, columns: list[str] | None = None) -> pd.DataFrame:
+    """A checked Parquet read straight to a DataFrame (a file or a dataset folder; all or
+    the named ``columns``)."""
     parts = dataset_parts(path)
     if Path(path).is_dir():
         if not parts:
             return pd.DataFrame()
-        return pa.concat_tables([read_parquet_checked(p) for p in parts]).to_pandas()
-    return read_parquet_checked(path).to_pandas()
+        return pa.concat_tables([read_parquet_checked(p, columns=columns)
+                                 for p in parts]).to_pandas()
+    return read_parquet_checked(path, columns=columns).to_pandas()

@@ -97,6 +97,8 @@ TABLES: dict[str, dict[str, tuple[str, str, str]]] = {
         "included": ("the unit passes every inclusion rule", "", "config inclusion"),
         "exclusion_reasons": ("every rule the unit fails, ';'-separated ('' when included)",
                               "", "config inclusion"),
+        "excluded_by": ("config names of the inclusion rules the unit fails, ';'-separated",
+                        "", "config inclusion"),
         "label": ("the unit's label from the sheet's unit_labels table ('' if none)", "",
                   "sheet column unit_labels"),
     },
@@ -321,10 +323,16 @@ TABLES: dict[str, dict[str, tuple[str, str, str]]] = {
 }
 
 
-def describe(table: str, column: str) -> tuple[str, str, str]:
-    """Meaning, unit and method of a column (sheet metadata included)."""
+FACTOR = ("one factor of the condition (its event-table column); the condition label "
+          "combines every factor", "", "config columns.event_condition")
+
+
+def describe(table: str, column: str, factors: tuple[str, ...] = ()) -> tuple[str, str, str]:
+    """Meaning, unit and method of a column (sheet metadata and condition factors included)."""
     if column in TABLES.get(table, {}):
         return TABLES[table][column]
+    if column in factors or (column == "condition_factor" and "condition" in factors):
+        return FACTOR
     if column in INCLUDED:
         return INCLUDED[column]
     if column in META:
@@ -332,7 +340,7 @@ def describe(table: str, column: str) -> tuple[str, str, str]:
     return EXTRA_META
 
 
-def to_markdown(columns_by_table: dict[str, list[str]]) -> str:
+def to_markdown(columns_by_table: dict[str, list[str]], factors: tuple[str, ...] = ()) -> str:
     """The data dictionary as Markdown, for the tables and columns actually written."""
     lines = ["# spikevar data dictionary", "",
              "Every column of every table in `cohort/`. Units: s = seconds, Hz = 1/s.", ""]
@@ -340,7 +348,7 @@ def to_markdown(columns_by_table: dict[str, list[str]]) -> str:
         lines += [f"## {table}", "", "| column | meaning | unit | method / reference |",
                   "|---|---|---|---|"]
         for column in columns:
-            meaning, unit, method = describe(table, column)
+            meaning, unit, method = describe(table, column, factors)
             lines.append(f"| `{column}` | {meaning} | {unit} | {method} |")
         lines.append("")
     return "\n".join(lines)

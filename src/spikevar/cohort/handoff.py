@@ -35,27 +35,29 @@ def write_atomic_text(path: Path, text: str) -> None:
     write_with_temporary(path, lambda tmp: tmp.write_text(text))
 
 
-def write_data_dictionary(tables: dict[str, str], *, markdown: Path, json_path: Path) -> None:
+def write_data_dictionary(tables: dict[str, str], *, markdown: Path, json_path: Path,
+                          factors: tuple[str, ...] = ()) -> None:
     """Data dictionary (Markdown + JSON) for the columns of the Parquet ``tables`` given
-    (files or dataset folders)."""
+    (files or dataset folders); ``factors``: the condition's factor columns."""
     columns = {name: table_schema(path).names for name, path in tables.items()}
-    entries = {name: {c: dict(zip(("meaning", "unit", "method"), describe(name, c),
+    entries = {name: {c: dict(zip(("meaning", "unit", "method"), describe(name, c, factors),
                                   strict=True)) for c in cols} for name, cols in columns.items()}
-    write_atomic_text(markdown, to_markdown(columns))
+    write_atomic_text(markdown, to_markdown(columns, factors))
     write_atomic_text(json_path, json.dumps(entries, indent=2))
 
 
-def _fields(name: str, schema: pa.Schema) -> list[dict]:
+def _fields(name: str, schema: pa.Schema, factors: tuple[str, ...] = ()) -> list[dict]:
     out = []
     for f in schema:
-        meaning, unit, _ = describe(name, f.name)
+        meaning, unit, _ = describe(name, f.name, factors)
         out.append({"name": f.name, "type": _frictionless_type(f.type), "description": meaning,
                     **({"unit": unit} if unit else {})})
     return out
 
 
 def write_datapackage(tables: dict[str, str], *, root: Path, path: Path,
-                      dataset_schemas: dict[str, Path] | None = None) -> None:
+                      dataset_schemas: dict[str, Path] | None = None,
+                      factors: tuple[str, ...] = ()) -> None:
     """A Frictionless Data Package descriptor listing each table with its schema.
 
     A cohort dataset (a folder of per-session Parquet files) is one resource per file, named
@@ -67,7 +69,7 @@ def write_datapackage(tables: dict[str, str], *, root: Path, path: Path,
     taken: set[str] = set()
     dataset_schemas = dataset_schemas or {}
     for name, table_path in tables.items():
-        schema = {"fields": _fields(name, table_schema(table_path))}
+        schema = {"fields": _fields(name, table_schema(table_path), factors)}
         if not Path(table_path).is_dir():
             resources.append({"name": name.replace("_", "-"),
                               "path": str(Path(table_path).resolve().relative_to(root.resolve())),

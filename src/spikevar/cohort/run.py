@@ -9,6 +9,7 @@ import logging
 import numpy as np
 import pandas as pd
 
+from spikevar.base.conditions import with_factor_columns
 from spikevar.base.parquet_io import (
     dataset_parts,
     frame_to_arrow,
@@ -26,7 +27,7 @@ STRATA = ("alignment", "condition", "epoch")
 
 def run_group_summary(*, units, count_fano, recovery, population_structure, gain_variance,
                       summary_out, differences_out, settings: BootstrapSettings,
-                      seed: int) -> None:
+                      seed: int, factors: tuple[str, ...] = ()) -> None:
     from spikevar.cohort.shared_stats import shared_group_summary
 
     frame = unit_metric_frame(read_frame(units), read_frame(count_fano), read_frame(recovery))
@@ -39,6 +40,8 @@ def run_group_summary(*, units, count_fano, recovery, population_structure, gain
                                          n_boot=settings.n_boot, rng=rng)
     summary = _with_strata(summary, s_sum, lead=["metric", "metric_label"])
     differences = _with_strata(differences, s_diff, lead=["metric"])
+    summary = with_factor_columns(summary, tuple(factors))
+    differences = with_factor_columns(differences, tuple(factors))
     meta = {"n_boot": settings.n_boot, "seed": seed, "levels": "subject > session > unit"}
     write_parquet_atomic(frame_to_arrow(summary), summary_out, metadata=meta)
     write_parquet_atomic(frame_to_arrow(differences), differences_out, metadata=meta)
@@ -55,12 +58,15 @@ def _with_strata(units: pd.DataFrame, shared: pd.DataFrame, *, lead: list[str]) 
 
 
 def run_shared_statistics(*, timecourse, pairs, over_time_out, by_rate_out,
-                          settings: BootstrapSettings, seed: int) -> None:
+                          settings: BootstrapSettings, seed: int,
+                          factors: tuple[str, ...] = ()) -> None:
     from spikevar.cohort.shared_stats import r_sc_by_rate, shared_over_time
 
     rng = np.random.default_rng([seed, 13])
     over_time = shared_over_time(dataset_parts(timecourse), n_boot=settings.n_boot, rng=rng)
     by_rate = r_sc_by_rate(dataset_parts(pairs), n_boot=settings.n_boot, rng=rng)
+    over_time = with_factor_columns(over_time, tuple(factors))
+    by_rate = with_factor_columns(by_rate, tuple(factors))
     meta = {"n_boot": settings.n_boot, "seed": seed,
             "levels": "subject > session (each session summarised first)"}
     write_parquet_atomic(frame_to_arrow(over_time), over_time_out, metadata=meta)

@@ -151,44 +151,6 @@ def tau_cv_figure(frame: pd.DataFrame, path) -> None:
             title="Refractory recovery against firing irregularity")
 
 
-def quality_figure(units: pd.DataFrame, recovery: pd.DataFrame, path) -> None:
-    """Refractory violations, contamination, and units without metrics or fits (and why)."""
-    import matplotlib.pyplot as plt
-
-    fig, axes = plt.subplots(1, 3, figsize=(13, 3.8))
-    ax = axes[0]
-    ax.hist(units["refractory_violation_fraction"].dropna() * 100, bins=30, color="#2b4f81",
-            edgecolor="white")
-    ax.set_xlabel("ISIs below the refractory threshold (%)")
-    ax.set_ylabel("units")
-    ax.set_title("Refractory-period violations", loc="left")
-    ax = axes[1]
-    ax.hist(units["contamination_hill"].dropna() * 100, bins=30, color="#d98c1f",
-            edgecolor="white")
-    n_flag = int((units["contamination_flag"].fillna("") != "").sum())
-    ax.set_xlabel("estimated contamination (%, Hill et al. 2011)")
-    ax.set_ylabel("units")
-    ax.set_title(f"Contamination ({n_flag} units without a real solution)", loc="left")
-    ax = axes[2]
-    reasons = pd.concat([
-        units.loc[units["isi_reason"].fillna("") != "", "isi_reason"].map(
-            lambda r: f"no ISI metrics: {r}"),
-        recovery.loc[(recovery["model"] == "exp_recovery") & ~recovery["converged"].astype(bool),
-                     "fit_note"].map(lambda r: f"no recovery fit: {str(r)[:40]}"),
-    ])
-    counts = reasons.value_counts()
-    if counts.empty:
-        ax.text(0.5, 0.5, f"all {len(units)} units have metrics and fits", ha="center",
-                transform=ax.transAxes)
-        ax.set_yticks([])
-    else:
-        ax.barh(counts.index, counts.to_numpy(), color="#6b7a8f")
-        ax.invert_yaxis()
-    ax.set_xlabel("units")
-    ax.set_title("Units left out, by reason", loc="left")
-    figure_style.save_titled(fig, path, f"Quality overview: {len(units)} units")
-
-
 def draw_cohort_figures(*, tables: dict[str, pd.DataFrame], frame: pd.DataFrame,
                         summary: pd.DataFrame, outputs: dict[str, str]) -> None:
     """Draw every cohort figure into ``outputs`` (PNG paths; SVG written alongside)."""
@@ -199,7 +161,11 @@ def draw_cohort_figures(*, tables: dict[str, pd.DataFrame], frame: pd.DataFrame,
     unit_metric_figure(frame, summary, outputs["unit_metrics"])
     fano_window_figure(tables["count_fano"], tables["units"], outputs["fano_by_window"])
     tau_cv_figure(frame, outputs["tau_vs_cv"])
-    quality_figure(tables["units"], tables["recovery"], outputs["quality"])
+    from spikevar.figures.quality import quality_figure, stability_figure
+
+    quality_figure(tables["units"], tables["recovery"], tables["unit_selection"],
+                   outputs["quality"])
+    stability_figure(tables["unit_blocks"], tables["units"], outputs["stability"])
     from spikevar.figures.shared import (
         r_sc_rate_figure,
         shared_structure_figure,

@@ -11,9 +11,13 @@ from spikevar.figures.cohort import draw_cohort_figures
 
 log = logging.getLogger(__name__)
 
+#: the only columns the figures read from the large cohort tables
+FIGURE_COLUMNS = {"unit_blocks": ["session", "group", "unit", "block_start_s", "rate_hz"]}
+
 
 def run_cohort_figures(*, inputs: dict[str, str], outputs: dict[str, str]) -> None:
-    tables = {name: read_frame(path) for name, path in inputs.items()}
+    tables = {name: read_frame(path, columns=FIGURE_COLUMNS.get(name))
+              for name, path in inputs.items()}
     frame = unit_metric_frame(tables["units"], tables["count_fano"], tables["recovery"])
     draw_cohort_figures(tables=tables, frame=frame, summary=tables["group_summary"],
                         outputs=outputs)

@@ -32,8 +32,13 @@ def apply_style() -> None:
 
 
 def save_titled(fig, path, title: str) -> None:
-    """The many-panel figures' ending: the title flush left above the panels, then save."""
-    fig.suptitle(title, x=0.01, ha="left")
+    """The many-panel figures' ending: the title flush left above the panels (wrapped to the
+    figure's width), then save."""
+    import textwrap
+
+    width_in = fig.get_size_inches()[0]
+    # about 13 characters per inch at the title size (10 pt): wrap with room to spare
+    fig.suptitle(textwrap.fill(title, max(30, int(width_in * 11))), x=0.01, ha="left")
     fig.tight_layout()
     save(fig, path)
 
@@ -57,3 +62,24 @@ def save(fig, path, *, trim: bool = True) -> None:
                                                                        bbox_inches=bbox))
     finally:
         plt.close(fig)
+
+
+def clipped_texts(fig, *, tolerance_px: float = 1.0) -> list[str]:
+    """What of ``fig`` reaches outside the figure (before any tight crop): its own texts (the
+    title) by their text, and each panel whose drawn labels, ticks or legend stick out, by
+    its title. Empty when a reader would see every label at the figure's own size."""
+    fig.canvas.draw()
+    renderer = fig.canvas.get_renderer()
+    box = fig.bbox
+
+    def outside(extent) -> bool:
+        return (extent.x0 < box.x0 - tolerance_px or extent.y0 < box.y0 - tolerance_px
+                or extent.x1 > box.x1 + tolerance_px or extent.y1 > box.y1 + tolerance_px)
+
+    found = [t.get_text() for t in fig.texts
+             if t.get_visible() and t.get_text().strip() and outside(t.get_window_extent(renderer))]
+    for ax in fig.axes:
+        extent = ax.get_tightbbox(renderer)
+        if ax.get_visible() and extent is not None and outside(extent):
+            found.append(f"panel '{ax.get_title(loc='left') or ax.get_title()}'")
+    return found

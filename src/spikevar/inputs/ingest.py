@@ -18,6 +18,7 @@ import pandas as pd
 import pyarrow as pa
 import pyarrow.compute as pc
 
+from spikevar.base import conditions
 from spikevar.base.errors import SpikevarInputError
 from spikevar.base.parquet_io import SPIKE_TABLE_OPTIONS, sha256_of_file, write_parquet_atomic
 from spikevar.base.unit_order import unit_sort_order
@@ -237,31 +238,52 @@ def normalise_events(
     later where they leave the recording.
     """
     report = IngestReport(rows_read=table.num_rows)
-    _require_columns(table, [columns.event_time, columns.event_condition],
+    factors = conditions.factor_names(columns.event_condition)
+    condition_columns = list(factors) or [columns.event_condition]
+    _require_columns(table, [columns.event_time, *condition_columns],
                      config_key="event_time, event_condition")
     raw = _numeric_times(table.column(columns.event_time), name=columns.event_time,
                          text=text_source)
     seconds = time_units.to_seconds(raw, time_unit=time_unit, sampling_rate_hz=sampling_rate_hz)
-    cond = readers.as_text_column(table.column(columns.event_condition),
-                                  name=columns.event_condition)
+    values = {}
+    for name in condition_columns:
+        column = readers.as_text_column(table.column(name), name=name)
+        values[name] = np.asarray(column.to_pylist(), dtype=object)
+        missing = np.array([v is None or str(v).strip() == "" for v in values[name]], bool)
+        if missing.any():
+            raise SpikevarInputError(
+                f"{int(missing.sum())} event(s) have no condition"
+                f"{f' factor {name!r}' if factors else ''}, at row(s) "
+                f"{_row_list(missing, text=text_source)}.",
+                fix="give every event a condition label (an empty cell would otherwise become "
+                    "a condition named '' with its own trials).",
+                where=f"column {name!r}")
+        unsafe = conditions.unsafe_values([str(v) for v in values[name]]) if factors else []
+        if unsafe:
+            raise SpikevarInputError(
+                f"Condition factor {name!r} has value(s) {', '.join(map(repr, unsafe[:3]))} "
+                f"holding '{conditions.NAME_VALUE}' or "
+                f"'{conditions.FACTOR_SEPARATOR.strip()}', which the combined condition label "
+                "uses to separate factors.",
+                fix="rename those values in the event table.", where=f"column {name!r}")
+    if factors:
+        cond = pa.array(conditions.combined_labels(
+            {n: [str(v) for v in values[n]] for n in factors}), pa.string())
+    else:
+        cond = readers.as_text_column(table.column(columns.event_condition),
+                                      name=columns.event_condition)
     labels = np.asarray(cond.to_pylist(), dtype=object)
-    missing = np.array([v is None or str(v).strip() == "" for v in labels], dtype=bool)
-    if missing.any():
-        raise SpikevarInputError(
-            f"{int(missing.sum())} event(s) have no condition, at row(s) "
-            f"{_row_list(missing, text=text_source)}.",
-            fix="give every event a condition label (an empty cell would otherwise become a "
-                "condition named '' with its own trials).",
-            where=f"column {columns.event_condition!r}")
+    # the factor columns stay in the table as they are (each its own column)
     extras = [c for c in table.column_names
-              if c not in (columns.event_time, columns.event_condition, "time_s", "condition")]
+              if c not in (columns.event_time, "time_s", "condition")
+              and (factors or c != columns.event_condition)]
     order = np.lexsort((labels.astype(str), seconds))
     report.was_sorted = bool(np.all(order == np.arange(len(order))))
     keep = _event_duplicates(table, seconds, labels, order, extras=extras, report=report,
                              column=columns.event_time, text=text_source)
     order = order[keep]
     arrays = {"time_s": pa.array(seconds[order], pa.float64()),
-              "condition": cond.take(pa.array(order))}
+              "condition": pc.take(cond, pa.array(order))}
     for c in extras:
         arrays[c] = table.column(c).take(pa.array(order))
     outside = (seconds < span_s[0]) | (seconds > span_s[1])
@@ -351,7 +373,9 @@ def _read_raw(path: Path, *, columns: ColumnNames, kind: str,
     if kind == "spikes":
         return readers.read_text_table(path, string_columns=(columns.unit,),
                                        float_columns=(columns.time,)), True, False
-    return readers.read_text_table(path, string_columns=(columns.event_condition,)), True, False
+    factors = conditions.factor_names(columns.event_condition)
+    return readers.read_text_table(path, string_columns=tuple(factors) or (
+        columns.event_condition,)), True, False
 
 
 def _check_readable(path: Path, *, session: str) -> None:

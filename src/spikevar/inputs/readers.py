@@ -141,7 +141,8 @@ def read_nwb_units(path: str | Path, *, unit_column: str, time_column: str) -> p
         io.close()
 
 
-def read_nwb_trials(path: str | Path, *, time_column: str, condition_column: str) -> pa.Table:
+def read_nwb_trials(path: str | Path, *, time_column: str,
+                    condition_column: str | tuple[str, ...]) -> pa.Table:
     """The NWB trials table as events: ``time_column`` (``start_time`` if absent) and condition."""
     io, nwbfile = _open_nwb(path)
     try:
@@ -153,15 +154,18 @@ def read_nwb_trials(path: str | Path, *, time_column: str, condition_column: str
                 path=str(path))
         frame = trials.to_dataframe()
         source = time_column if time_column in frame.columns else "start_time"
-        if condition_column not in frame.columns:
-            raise SpikevarInputError(
-                f"The NWB trials table has no column '{condition_column}' "
-                f"(found: {', '.join(map(str, frame.columns))}).",
-                fix="set config columns.event_condition to the trials column that names the "
-                "condition.", path=str(path), where=f"column {condition_column}")
+        named = [condition_column] if isinstance(condition_column, str) else \
+            list(condition_column)
+        for name in named:
+            if name not in frame.columns:
+                raise SpikevarInputError(
+                    f"The NWB trials table has no column '{name}' "
+                    f"(found: {', '.join(map(str, frame.columns))}).",
+                    fix="set config columns.event_condition to the trials column(s) that name "
+                    "the condition.", path=str(path), where=f"column {name}")
         frame = frame.rename(columns={source: time_column}).reset_index(drop=True)
-        keep = [time_column, condition_column] + [
-            c for c in frame.columns if c not in (time_column, condition_column)
+        keep = [time_column, *named] + [
+            c for c in frame.columns if c not in (time_column, *named)
             and frame[c].map(np.isscalar).all()]
         return pa.Table.from_pandas(frame[keep], preserve_index=False)
     finally:

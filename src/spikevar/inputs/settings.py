@@ -14,11 +14,25 @@ class ColumnNames:
     unit: str = "unit"
     time: str = "time"
     event_time: str = "time"
-    event_condition: str = "condition"
+    #: the condition column, or a list of factor columns (the condition label combines them:
+    #: ``contrast=high; side=left``, and each factor stays its own column)
+    event_condition: str | tuple[str, ...] = "condition"
 
     @classmethod
     def from_config(cls, columns: dict | None) -> ColumnNames:
-        return settings_from(cls, columns, section="columns")
+        names = settings_from(cls, columns, section="columns")
+        if not isinstance(names.event_condition, str):
+            factors = tuple(names.event_condition)
+            if not factors or not all(isinstance(f, str) and f for f in factors):
+                from spikevar.base.errors import SpikevarInputError
+
+                raise SpikevarInputError(
+                    "columns.event_condition must be one column name or a list of them.",
+                    fix="write e.g. event_condition: condition, or event_condition: "
+                        "[contrast, side].", where="config")
+            names = ColumnNames(unit=names.unit, time=names.time,
+                                event_time=names.event_time, event_condition=factors)
+        return names
 
 
 @dataclass(frozen=True)

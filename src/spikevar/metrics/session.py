@@ -10,6 +10,7 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
+from spikevar.base.conditions import with_factor_columns
 from spikevar.base.errors import SpikevarInputError
 from spikevar.base.parquet_io import (
     frame_to_arrow,
@@ -174,13 +175,14 @@ def load_aligned_session(session: str, spikes_path, events_path, *, alignments: 
 
 def run_session_timecourse(*, session: str, spikes_path, events_path, output: str,
                            windows: SlidingWindows, alignments: list[str],
-                           event_time_column: str, span: tuple[float, float] | None = None
-                           ) -> None:
+                           event_time_column: str, span: tuple[float, float] | None = None,
+                           factors: tuple[str, ...] = ()) -> None:
     """Read a session's spikes and events, write the event-aligned ``fano_timecourse``."""
     spikes, events, times = load_aligned_session(session, spikes_path, events_path,
                                                  alignments=alignments,
                                                  event_time_column=event_time_column)
     frame = timecourse_table(spikes, events, windows=windows, alignments=times, span=span)
+    frame = with_factor_columns(frame, tuple(factors))
     frame.insert(0, "session", session)
     write_parquet_atomic(frame_to_arrow(frame), Path(output), metadata={
         "session": session, "timecourse": asdict(windows), "alignments": list(times),

@@ -100,6 +100,13 @@ def sheet_records(sheet: pd.DataFrame) -> list[dict]:
     return records
 
 
+def condition_factors(config: dict) -> list[str]:
+    """The factor columns of a multi-factor condition (config columns.event_condition as a
+    list); empty for a single condition column."""
+    value = config["columns"]["event_condition"]
+    return [] if isinstance(value, str) else list(value)
+
+
 def primary_alignment(config: dict) -> str:
     """The alignment the report's start page summarises: the first of ``alignments``, else the
     event time column."""

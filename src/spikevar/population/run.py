@@ -5,6 +5,7 @@ from __future__ import annotations
 import logging
 from dataclasses import asdict
 
+from spikevar.base.conditions import with_factor_columns
 from spikevar.base.parquet_io import frame_to_arrow, read_frame, write_parquet_atomic
 from spikevar.population.fano import population_fano_table
 from spikevar.population.settings import MeanMatchSettings
@@ -13,11 +14,12 @@ log = logging.getLogger(__name__)
 
 
 def run_population_fano(*, timecourse_path, output, settings: MeanMatchSettings,
-                        seed: int) -> None:
+                        seed: int, factors: tuple[str, ...] = ()) -> None:
     timecourse = read_frame(timecourse_path)
     if "included" in timecourse.columns:  # the cohort dataset: included units only
         timecourse = timecourse[timecourse["included"].astype(bool)]
-    table = population_fano_table(timecourse, settings=settings, seed=seed)
+    table = with_factor_columns(population_fano_table(timecourse, settings=settings, seed=seed),
+                                tuple(factors))
     write_parquet_atomic(frame_to_arrow(table), output,
                          metadata={"settings": asdict(settings), "seed": seed})
     log.info("population Fano factor: %d rows", len(table))

@@ -8,6 +8,7 @@ from dataclasses import asdict
 
 import numpy as np
 
+from spikevar.base.conditions import with_factor_columns
 from spikevar.base.parquet_io import frame_to_arrow, read_parquet_checked, write_parquet_atomic
 from spikevar.base.spike_arrays import recording_span
 from spikevar.metrics.session import load_aligned_session
@@ -19,7 +20,8 @@ log = logging.getLogger(__name__)
 def run_session_shared(*, session: str, spikes_path, events_path, selection_path,
                        outputs: dict[str, str], alignments: list[str], event_time_column: str,
                        epochs: dict[str, tuple[float, float]], windows, settings,
-                       seed: int, span: tuple[float, float] | None = None) -> None:
+                       seed: int, span: tuple[float, float] | None = None,
+                       factors: tuple[str, ...] = ()) -> None:
     """Read a session's spikes, events and unit selection, write its five shared-variability
     tables from the included units."""
     spikes, events, times = load_aligned_session(session, spikes_path, events_path,
@@ -37,7 +39,7 @@ def run_session_shared(*, session: str, spikes_path, events_path, selection_path
             "epochs": {k: list(v) for k, v in epochs.items()}, "alignments": list(times),
             "seed": seed, "span_s": whole, "span_declared": span is not None}
     for name in TABLES:
-        frame = tables[name]
+        frame = with_factor_columns(tables[name], tuple(factors))
         frame.insert(0, "session", session)
         write_parquet_atomic(frame_to_arrow(frame), outputs[name], metadata=meta)
     structure = tables["population_structure"]
