@@ -11,7 +11,7 @@ SMK := $(PY) -m snakemake --cores $(CORES)
 DEMO_CONFIG := sessions=$(DEMO_COHORT)/sessions.tsv results=$(DEMO_RESULTS) alignments='[time, lick_time]'
 
 
-.PHONY: demo test quick lint unit workflow-lint bench clean report-check
+.PHONY: demo test quick lint unit workflow-lint bench clean report-check readme-figures
 
 $(STAMP): pyproject.toml
 	$(PYTHON) -m venv $(VENV)
@@ -29,6 +29,10 @@ demo: $(STAMP)
 ## report-check: open the demo's report in headless Chromium, keep a screenshot of its start page
 report-check: $(STAMP)
 	$(PY) tests/report_browser.py $(DEMO_RESULTS)
+
+## readme-figures: the README's demo figures (small PNGs in docs/figures), after make demo
+readme-figures: $(STAMP)
+	$(PY) scripts/readme_figures.py $(DEMO_RESULTS) docs/figures
 
 ## test: lint the code and the workflow, then run the whole test suite
 test: $(STAMP) lint workflow-lint unit
