@@ -19,7 +19,9 @@ def rules():
     found = []
     for smk in sorted((REPO / "workflow" / "rules").glob("*.smk")):
         for name, body in RULE.findall(smk.read_text()):
-            listed = re.search(r"code_fingerprint\((.*?)\)", body, re.S)
+            # the fingerprint is given directly or through the statistics rules' helper
+            listed = re.search(r"(?:code_fingerprint|cohort_statistics_params)\((.*?)\)", body,
+                               re.S)
             script = re.search(r'script:\s*"([^"]+)"', body)
             if script:
                 modules = re.findall(r'"([\w.]+)"', listed.group(1)) if listed else []

@@ -22,6 +22,8 @@ from spikevar.pipeline.fingerprints import code_fingerprint
 from spikevar.inputs.sheet import load_sheet
 from spikevar.pipeline.rule_inputs import (
     cohort_metadata,
+    cohort_statistics_params,
+    handoff_normalised_inputs,
     condition_factors,
     ingest_inputs,
     selection_inputs,

@@ -4,14 +4,7 @@
 rule handoff:
     input:
         tables=[LAYOUT.cohort_output(t) for t in (*SESSION_TABLES, *STATISTICS_TABLES)],
-        normalised=[
-            LAYOUT.session_table(s, kind) for s in SESSIONS for kind in NORMALISED_TABLES
-        ]
-        + [
-            LAYOUT.session_table(s, "unit_labels")
-            for s in SESSIONS
-            if has_unit_labels(SHEET, s)
-        ],
+        normalised=handoff_normalised_inputs(SHEET, LAYOUT, NORMALISED_TABLES),
     output:
         failed=LAYOUT.cohort_table("failed_sessions"),
         dictionary_md=LAYOUT.handoff_file("data_dictionary.md"),

@@ -7,10 +7,8 @@ rule population_fano:
     output:
         LAYOUT.cohort_table("population_fano"),
     params:
-        factors=condition_factors(config),
         population=config["population"],
-        seed=config["seed"],
-        code=code_fingerprint("population.run", "base.settings"),
+        **cohort_statistics_params(config, "population.run", "base.settings", bootstrap=False),
     log:
         **LAYOUT.cohort_logs("population_fano"),
     benchmark:
@@ -31,10 +29,7 @@ rule group_summary:
         summary=LAYOUT.cohort_table("group_summary"),
         differences=LAYOUT.cohort_table("group_differences"),
     params:
-        factors=condition_factors(config),
-        bootstrap=config["bootstrap"],
-        seed=config["seed"],
-        code=code_fingerprint("cohort.run", "cohort.shared_stats", "base.settings"),
+        **cohort_statistics_params(config, "cohort.run", "cohort.shared_stats", "base.settings"),
     log:
         **LAYOUT.cohort_logs("group_summary"),
     benchmark:
@@ -56,10 +51,7 @@ rule shared_statistics:
         over_time=LAYOUT.cohort_table("shared_over_time"),
         by_rate=LAYOUT.cohort_table("r_sc_by_rate"),
     params:
-        factors=condition_factors(config),
-        bootstrap=config["bootstrap"],
-        seed=config["seed"],
-        code=code_fingerprint("cohort.run", "cohort.shared_stats", "base.settings"),
+        **cohort_statistics_params(config, "cohort.run", "cohort.shared_stats", "base.settings"),
     log:
         **LAYOUT.cohort_logs("shared_statistics"),
     benchmark:

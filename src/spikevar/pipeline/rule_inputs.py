@@ -111,3 +111,24 @@ def primary_alignment(config: dict) -> str:
     """The alignment the report's start page summarises: the first of ``alignments``, else the
     event time column."""
     return (list(config["alignments"]) or [config["columns"]["event_time"]])[0]
+
+
+def handoff_normalised_inputs(sheet: pd.DataFrame, layout, kinds) -> list[str]:
+    """The normalised raw tables the hand-off lists in its manifest: every ``kinds`` table of
+    every session, plus the normalised unit labels of sessions whose sheet row names a label
+    table."""
+    tables = [layout.session_table(s, kind) for s in sheet.index for kind in kinds]
+    labelled = [s for s in sheet.index if has_unit_labels(sheet, s)]
+    return tables + [layout.session_table(s, "unit_labels") for s in labelled]
+
+
+def cohort_statistics_params(config: dict, *modules: str, bootstrap: bool = True) -> dict:
+    """Parameters shared by the cohort statistics rules: the condition factors, the seed, the
+    bootstrap settings (unless ``bootstrap`` is False) and the fingerprint of ``modules``."""
+    from spikevar.pipeline.fingerprints import code_fingerprint
+
+    params = {"factors": condition_factors(config), "seed": config["seed"]}
+    if bootstrap:
+        params["bootstrap"] = config["bootstrap"]
+    params["code"] = code_fingerprint(*modules)
+    return params

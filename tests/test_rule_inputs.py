@@ -1,0 +1,37 @@
+"""The helpers the .smk files use to build rule inputs and parameters."""
+
+import pandas as pd
+
+from spikevar.base.layout import NORMALISED_TABLES, ResultsLayout
+from spikevar.pipeline.rule_inputs import cohort_statistics_params, handoff_normalised_inputs
+
+
+def _sheet(labels):
+    return pd.DataFrame(
+        {"spikes": ["a.csv", "b.csv"], "unit_labels": labels}, index=["s1", "s2"]
+    )
+
+
+def test_handoff_lists_every_normalised_table_and_only_given_label_tables():
+    layout = ResultsLayout("res")
+    inputs = handoff_normalised_inputs(_sheet(["", "b_labels.tsv"]), layout, NORMALISED_TABLES)
+    expected = [layout.session_table(s, k) for s in ("s1", "s2") for k in NORMALISED_TABLES]
+    assert inputs == expected + [layout.session_table("s2", "unit_labels")]
+    # a sheet without the optional column lists no label tables
+    no_column = _sheet(["", ""]).drop(columns="unit_labels")
+    assert handoff_normalised_inputs(no_column, layout, NORMALISED_TABLES) == expected
+
+
+def test_statistics_params_carry_what_the_rules_read_and_track_the_code():
+    config = {
+        "columns": {"event_condition": ["contrast", "side"]},
+        "seed": 7,
+        "bootstrap": {"n_resamples": 100},
+    }
+    params = cohort_statistics_params(config, "cohort.run")
+    assert params["factors"] == ["contrast", "side"]
+    assert params["seed"] == 7 and params["bootstrap"] == {"n_resamples": 100}
+    assert len(params["code"]) == 16
+    without = cohort_statistics_params(config, "population.run", bootstrap=False)
+    assert "bootstrap" not in without
+    assert without["code"] != params["code"]  # a different module, a different fingerprint
