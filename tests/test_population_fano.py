@@ -67,22 +67,27 @@ def test_mean_matching_removes_spurious_change_with_constant_gain_variance():
 def test_mean_matched_fano_shows_drop_at_event_onset():
     # Simulator: spontaneous gain variability (CV 0.6) and much less variable driven responses;
     # the Fano factor must fall after the event while the mean rises (Churchland et al. 2010).
+    # Rates spread widely so that matching keeps a real share of the units (with 30 units of
+    # alike rates it kept one, and an earlier version of this test passed on that one unit).
     rng = np.random.default_rng(4)
     events = np.arange(2.0, 2.0 + 2.5 * 160, 2.5)
     units, times = simulate.event_locked_population(
-        n_units=30, event_times_s=events, baseline_hz=lambda g: g.uniform(5, 20),
-        amplitude_hz=lambda g: g.uniform(20, 50), gain_cv=0.6, driven_gain_cv=0.05, rng=rng)
+        n_units=120, event_times_s=events, baseline_hz=lambda g: g.uniform(2, 40),
+        amplitude_hz=lambda g: g.uniform(5, 25), gain_cv=0.6, driven_gain_cv=0.05, rng=rng)
     spikes = SpikeArrays.from_arrays(units, times)
     tc = fano_timecourse_table(spikes, pd.DataFrame({"time_s": events, "condition": "flash"}),
                                windows=SlidingWindows(-0.4, 0.4, 0.2, 0.1),
                                recording_s=(0.0, times.max()))
-    # six animals of five units each: intervals resample animals
+    # six animals of twenty units each: intervals resample animals
     animal = "m" + (tc["unit"].str.extract(r"(\d+)$")[0].astype(int) % 6).astype(str)
     tc = tc.assign(session=animal + "-1", subject=animal, group="g")
     table = population_fano_table(tc, settings=MeanMatchSettings(n_boot=50, n_bins=6),
                                   seed=5).set_index("time_s")
     before, after = table.loc[-0.3], table.loc[0.2]
-    assert after["mean_count"] > 1.5 * before["mean_count"]
+    assert after["mean_count"] > 1.4 * before["mean_count"]
+    assert (table["n_units_matched"] >= 40).all()
+    # the kept units' mean count stays put while the mean of all units rises
+    assert abs(after["mean_count_matched"] / before["mean_count_matched"] - 1) < 0.1
     assert after["fano_mean_matched"] < before["fano_mean_matched"] - 0.3
     assert after["ci_hi"] < before["ci_lo"] + 0.3
 
@@ -111,3 +116,28 @@ def test_mean_match_mask_keeps_the_common_distribution():
         kept = np.bincount(bins[keep[:, w], w], minlength=4)
         np.testing.assert_array_equal(kept, common)
     assert not keep[bins < 0].any()
+
+
+def test_matching_reports_how_many_units_it_kept_and_their_mean_count():
+    """Two rate levels that swap between windows: the common distribution keeps only the units
+    whose rate is alike in both windows; with too few kept, no mean-matched value is given."""
+    rng = np.random.default_rng(8)
+    means = np.concatenate([np.full((20, 1), 2.0), np.full((20, 1), 8.0)])
+    means = np.hstack([means, means[::-1]])  # window 2: the same two levels, units swapped
+    counts = rng.poisson(means[:, None, :], size=(40, 30, 2))
+    tc = timecourse_from_counts(counts, [0.0, 0.1])
+    table = population_fano_table(tc, settings=MeanMatchSettings(n_boot=10, n_bins=10), seed=0)
+    # every unit's mean is near 2 or 8 in both windows, so both histograms are alike and most
+    # units are kept; the kept units' mean count is that of the two levels
+    assert (table["n_units_matched"] >= 30).all()
+    np.testing.assert_allclose(table["mean_count_matched"], 5.0, atol=0.8)
+    # now every unit changes level: window 1 holds only low, window 2 only high rates
+    low_high = np.hstack([np.full((40, 1), 2.0), np.full((40, 1), 8.0)])
+    counts = rng.poisson(low_high[:, None, :], size=(40, 30, 2))
+    table = population_fano_table(timecourse_from_counts(counts, [0.0, 0.1]),
+                                  settings=MeanMatchSettings(n_boot=10, min_units=5), seed=0)
+    assert (table["n_units_matched"] < 5).all()
+    assert table["fano_mean_matched"].isna().all() and table["mean_count_matched"].isna().all()
+    assert table["fano_regression"].notna().all()
+    assert table["population_reason"].str.startswith(
+        ("mean matching kept fewer than 5", "no common")).all()

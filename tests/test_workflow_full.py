@@ -274,3 +274,29 @@ def test_every_cohort_figure_renders_with_no_text_outside_it(full_run, tmp_path,
         for file in (path, path.with_suffix(".svg")):
             assert file.stat().st_size > 5_000, file
         assert path.read_bytes()[:4] == b"\x89PNG"
+
+
+def test_the_session_recovery_figure_has_no_text_outside_it(full_run, tmp_path, monkeypatch):
+    """The per-session recovery figure (fixed layout, no automatic crop) keeps every label of
+    every unit's panels inside the figure, fitted and unfitted units alike."""
+    from spikevar.base.layout import ResultsLayout
+    from spikevar.figures import style
+    from spikevar.figures.recovery import draw_session_recovery
+
+    out, sheet, _ = full_run
+    layout = ResultsLayout(str(out))
+    clipped = {}
+    original = style.save
+
+    def checked_save(fig, path, **kw):
+        clipped[Path(path).stem] = style.clipped_texts(fig)
+        original(fig, path, **kw)
+
+    monkeypatch.setattr(style, "save", checked_save)
+    for session in sheet["session"]:
+        draw_session_recovery(session=session,
+                              spikes_path=layout.session_table(session, "spikes"),
+                              recovery_path=layout.session_table(session, "recovery"),
+                              output=str(tmp_path / f"{session}.png"), max_units=12)
+    assert len(clipped) == len(sheet)
+    assert {name: texts for name, texts in clipped.items() if texts} == {}

@@ -185,7 +185,11 @@ TABLES: dict[str, dict[str, tuple[str, str, str]]] = {
         "ci_lo": ("95% interval of fano_mean_matched: subjects resampled, the whole averaged "
                   "matching redone in each resample, t(G-1) correction", "", ""),
         "ci_hi": ("upper end of that interval", "", ""),
-        "n_units_matched": ("units kept by mean matching per window", "count", CHURCH),
+        "n_units_matched": ("units kept by mean matching in each window (the size of the "
+                            "common distribution; below population.min_units no mean-matched "
+                            "value is given)", "count", CHURCH),
+        "mean_count_matched": ("mean spike count per window of the units mean matching kept "
+                               "(averaged over the matchings)", "count", CHURCH),
         "population_reason": ("why values are NaN ('' if defined)", "", ""),
     },
     "group_summary": {

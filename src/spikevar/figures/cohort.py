@@ -25,55 +25,114 @@ def _finish(fig, ax, path, *, xlabel: str, ylabel: str, title: str) -> None:
     figure_style.save(fig, path)
 
 
+#: rows of the population Fano figure per alignment: the estimate, then the data behind it
+POPULATION_ROWS = (("fano", 2.2), ("units", 0.85), ("rate", 0.85))
+
+
+def _no_value_marks(ax, part, column, colour) -> str:
+    """Mark the windows of ``part`` where ``column`` has no value with a cross on the panel's
+    lower edge; return the (first) reason the table gives, '' when every window has one."""
+    import matplotlib.transforms as mtransforms
+
+    missing = part[part[column].isna()]
+    if missing.empty:
+        return ""
+    edge = mtransforms.blended_transform_factory(ax.transData, ax.transAxes)
+    ax.plot(missing["time_s"], np.full(len(missing), 0.04), ls="none", marker="x", ms=5,
+            mew=1.4, color=colour, transform=edge, clip_on=False)
+    reasons = missing["population_reason"].replace("", np.nan).dropna()
+    return str(reasons.iloc[0]) if len(reasons) else "no value"
+
+
+def _kept_range(part: pd.DataFrame) -> str:
+    """'26 of 120 units kept' (ranges where the counts change over the windows)."""
+    def span(values):
+        values = values.dropna().astype(int)
+        if values.empty:
+            return "0"
+        lo, hi = values.min(), values.max()
+        return f"{lo}" if lo == hi else f"{lo}-{hi}"
+    return f"{span(part['n_units_matched'])} of {span(part['n_units'])} kept"
+
+
 def population_fano_figure(pop: pd.DataFrame, path) -> None:
-    """Mean-matched and regression Fano factor over event-aligned time: a column per group, a
-    pair of rows (Fano factor above, mean rate below) per alignment."""
+    """Population Fano factor over event-aligned time and the data behind each point: per
+    alignment a row of Fano panels (mean-matched with its interval, all units dashed; crosses
+    on the lower edge where the table has no mean-matched value), a row of unit counts (all
+    usable units dashed, units mean matching kept solid) and a row of mean rates (all units
+    dashed, kept units solid); one column per group, one colour and marker per condition."""
     import matplotlib.pyplot as plt
 
-    groups = sorted(pop["group"].unique()) if len(pop) else ["(none)"]
     if "alignment" not in pop:
         pop = pop.assign(alignment="event")
+    for column in ("mean_count_matched", "n_units_matched"):
+        if column not in pop:
+            pop = pop.assign(**{column: np.nan})
+    groups = sorted(pop["group"].unique()) if len(pop) else ["(none)"]
     alignments = sorted(pop["alignment"].unique()) if len(pop) else ["event"]
-    n_rows = 2 * len(alignments)
-    fig, axes = plt.subplots(n_rows, len(groups), figsize=(4.2 * len(groups),
-                                                           0.3 + 2.65 * n_rows),
-                             squeeze=False, sharex=True,
-                             gridspec_kw={"height_ratios": [2, 1] * len(alignments)})
     conditions = sorted(pop["condition"].unique()) if len(pop) else []
     colours = _group_colours(conditions)
+    ratios = [r for _, r in POPULATION_ROWS] * len(alignments)
+    fig, axes = plt.subplots(len(ratios), len(groups),
+                             figsize=(4.4 * len(groups), 0.5 + 1.45 * sum(ratios)),
+                             squeeze=False, sharex=True, gridspec_kw={"height_ratios": ratios})
     for a, alignment in enumerate(alignments):
         for j, group in enumerate(groups):
-            top, bottom = axes[2 * a, j], axes[2 * a + 1, j]
+            top, units_ax, rate_ax = (axes[len(POPULATION_ROWS) * a + r, j] for r in range(3))
+            missing_reasons, kept_notes = set(), []
             for k, cond in enumerate(conditions):
                 part = pop[(pop["group"] == group) & (pop["condition"] == cond)
                            & (pop["alignment"] == alignment)].sort_values("time_s")
                 if part.empty:
                     continue
-                c = colours[cond]
+                c, marker = colours[cond], figure_style.MARKERS[k % len(figure_style.MARKERS)]
+                every = max(1, len(part) // 8)
                 top.fill_between(part["time_s"], part["ci_lo"], part["ci_hi"], color=c,
                                  alpha=0.18, linewidth=0)
                 top.plot(part["time_s"], part["fano_mean_matched"], color=c, lw=1.8,
-                         marker=figure_style.MARKERS[k], markevery=6, ms=4,
-                         label=f"{cond}: mean-matched")
+                         marker=marker, markevery=every, ms=4, label=f"{cond}: mean-matched")
                 top.plot(part["time_s"], part["fano_regression"], color=c, lw=1.0, ls="--",
                          label=f"{cond}: all units")
-                bottom.plot(part["time_s"], part["mean_count"] / part["window_s"], color=c,
-                            lw=1.4, marker=figure_style.MARKERS[k], markevery=6, ms=4,
-                            label=cond)
-            for ax in (top, bottom):
+                reason = _no_value_marks(top, part, "fano_mean_matched", c)
+                if reason:
+                    missing_reasons.add(reason)
+                kept_notes.append(f"{cond}: {_kept_range(part)}")
+                units_ax.plot(part["time_s"], part["n_units"], color=c, lw=1.0, ls="--",
+                              drawstyle="steps-mid")
+                units_ax.plot(part["time_s"], part["n_units_matched"], color=c, lw=1.6,
+                              marker=marker, markevery=every, ms=3.5, drawstyle="steps-mid")
+                rate_ax.plot(part["time_s"], part["mean_count"] / part["window_s"], color=c,
+                             lw=1.0, ls="--")
+                rate_ax.plot(part["time_s"], part["mean_count_matched"] / part["window_s"],
+                             color=c, lw=1.6, marker=marker, markevery=every, ms=3.5)
+            for ax in (top, units_ax, rate_ax):
                 ax.axvline(0.0, color=figure_style.INK, lw=0.9, ls=":")
-            top.axhline(1.0, color="#9aa5b1", lw=0.8)
+            top.axhline(1.0, color=figure_style.REFERENCE, lw=0.8)
             top.set_title(f"group {group}, aligned on {alignment}", loc="left")
-            top.set_ylabel("Fano factor (count variance / mean)")
-            bottom.set_ylabel("mean rate (Hz)")
+            top.set_ylabel("Fano factor")
+            units_ax.set_ylabel("units")
+            units_ax.set_ylim(0, 1.5 * max(units_ax.get_ylim()[1], 1))
+            units_ax.text(0.01, 0.97, "solid: kept by mean matching, dashed: all units\n"
+                          + ";  ".join(kept_notes), transform=units_ax.transAxes, va="top",
+                          fontsize=7, color=figure_style.INK)
+            rate_ax.set_ylabel("mean rate (Hz)")
+            if missing_reasons:
+                top.text(0.01, 0.1, "× no mean-matched value: " + "; ".join(sorted(
+                    missing_reasons)), transform=top.transAxes, fontsize=7,
+                    color=figure_style.INK, va="bottom", wrap=True)
             if a == 0 and j == len(groups) - 1:
-                top.legend(fontsize=7)
+                top.legend(fontsize=7, loc="upper right")
+    for row in range(len(ratios)):  # one scale per row, so groups compare at a glance
+        if POPULATION_ROWS[row % len(POPULATION_ROWS)][0] != "units":
+            lows, highs = zip(*(ax.get_ylim() for ax in axes[row]), strict=True)
+            for ax in axes[row]:
+                ax.set_ylim(min(lows), max(highs))
     for j in range(len(groups)):
         axes[-1, j].set_xlabel("time from the alignment event (s; window centre)")
     figure_style.save_titled(
         fig, path,
-        "Population Fano factor around each alignment event (bands: 95% interval, "
-        "animals resampled; dotted line: the event)")
+        "Population Fano factor around each alignment event, with the units and rates behind "
+        "each point (bands: 95% interval, animals resampled; dotted line: the event)")
 
 
 def unit_metric_figure(frame: pd.DataFrame, summary: pd.DataFrame, path) -> None:

@@ -70,10 +70,11 @@ def r_sc_rate_figure(by_rate: pd.DataFrame, path) -> None:
                     ax.plot(x, s["r_sc"], color=colours[g], ls=styles[k % len(styles)],
                             marker=figure_style.MARKERS[k % len(figure_style.MARKERS)], ms=4,
                             lw=1.5, label=f"{g} / {c}")
-            ax.axhline(0.0, color="#9aa5b1", lw=0.8)
+            ax.axhline(0.0, color=figure_style.REFERENCE, lw=0.8)
             _rate_axis(ax)
             ax.set_title(f"{epoch} epoch, aligned on {alignment}", loc="left")
-            ax.set_xlabel("geometric mean rate of the pair (Hz)")
+            if i == len(alignments) - 1:  # the rows share the rate axis
+                ax.set_xlabel("geometric mean rate of the pair (Hz)")
             if j == 0:
                 ax.set_ylabel("mean noise correlation r_sc")
     handles, labels = axes[0, 0].get_legend_handles_labels()
@@ -99,7 +100,8 @@ def shared_time_figure(over_time: pd.DataFrame, path) -> None:
     conditions = _first(over_time, "condition")
     colours = _colours(conditions)
     rows = [(a, m) for a in alignments for m in ("mean_r_sc", "percent_shared_mean")]
-    fig, axes = plt.subplots(len(rows), len(groups), squeeze=False, sharex=True,
+    # one scale per row, so the groups compare at a glance
+    fig, axes = plt.subplots(len(rows), len(groups), squeeze=False, sharex=True, sharey="row",
                              figsize=(0.6 + 4.8 * len(groups), 0.5 + 2.3 * len(rows)))
     label = {"mean_r_sc": "mean r_sc", "percent_shared_mean": "% variance shared"}
     for r, (alignment, metric) in enumerate(rows):
@@ -149,7 +151,7 @@ def shared_structure_figure(structure: pd.DataFrame, path) -> None:
     metrics = (("dim_shared", "shared dimensionality"),
                ("percent_shared_mean", "% variance shared (mean over units)"))
     fig, axes = plt.subplots(len(metrics), len(epochs), squeeze=False,
-                             figsize=(0.6 + 3.6 * len(epochs), 5.6))
+                             figsize=(0.6 + 3.6 * len(epochs), 5.6), sharey="row")
     rng = np.random.default_rng(0)  # jitter only
     for j, epoch in enumerate(epochs):
         for r, (metric, label) in enumerate(metrics):
@@ -164,7 +166,7 @@ def shared_structure_figure(structure: pd.DataFrame, path) -> None:
                         continue
                     x = i + (k - (len(conditions) - 1) / 2) * 0.18 + rng.uniform(-0.04, 0.04,
                                                                                  len(s))
-                    ax.scatter(x, s[metric], color=colours[g], s=16, alpha=0.8,
+                    ax.scatter(x, s[metric], color=colours[g], s=16, alpha=0.8, clip_on=False,
                                marker=figure_style.MARKERS[k % len(figure_style.MARKERS)],
                                label=c if i == 0 else None, edgecolor="white", linewidth=0.4)
                 values = e.loc[e["group"] == g, metric].to_numpy(float)
@@ -175,6 +177,7 @@ def shared_structure_figure(structure: pd.DataFrame, path) -> None:
             ax.set_xlim(-0.6, max(len(groups), 1) - 0.4)
             if metric == "dim_shared":
                 ax.yaxis.get_major_locator().set_params(integer=True)
+            ax.set_ylim(bottom=min(0.0, ax.get_ylim()[0]))
             ax.set_title(f"{epoch} epoch" if r == 0 else "", loc="left")
             if j == 0:
                 ax.set_ylabel(label)
@@ -182,7 +185,11 @@ def shared_structure_figure(structure: pd.DataFrame, path) -> None:
                 ax.set_xlabel("group")
     handles, labels = axes[0, 0].get_legend_handles_labels()
     if handles:
-        axes[0, -1].legend(handles, labels, fontsize=7, title="condition (marker)",
+        # markers in the ink colour: the legend names the condition, the colour is the group's
+        grey = [plt.Line2D([], [], ls="none", color=figure_style.INK, ms=4,
+                           marker=figure_style.MARKERS[k % len(figure_style.MARKERS)])
+                for k in range(len(handles))]
+        axes[0, -1].legend(grey, labels, fontsize=7, title="condition (marker)",
                            title_fontsize=7)
     figure_style.save_titled(
         fig, path,

@@ -10,6 +10,8 @@ matplotlib.use("Agg")
 import matplotlib.pyplot as plt  # noqa: E402
 
 INK = "#26323d"
+#: reference lines (Poisson level, diagonal): a light grey that stays behind the data
+REFERENCE = "#9aa5b1"
 #: group / condition colours: dark slate blue, amber, teal, plum (differ in lightness too)
 SERIES = ["#2b4f81", "#d98c1f", "#2f8f83", "#8c4a86", "#6b7a8f"]
 MODEL_STYLE = {

@@ -41,7 +41,7 @@ from spikevar.population.settings import MeanMatchSettings
 COLUMNS = ["group", "condition", "alignment", "time_s", "window_s", "n_units", "mean_count",
            "fano_regression", "regression_ci_lo", "regression_ci_hi",
            "fano_regression_unweighted", "fano_mean_matched", "ci_lo", "ci_hi",
-           "n_units_matched", "population_reason"]
+           "n_units_matched", "mean_count_matched", "population_reason"]
 
 
 def slope_through_origin(mean: np.ndarray, var: np.ndarray, axis: int = -1) -> np.ndarray:
@@ -138,13 +138,18 @@ def estimate(series: list[Series], scopes: list[int], edges: np.ndarray, *, n_re
         common[scope] = low if scope not in common else np.minimum(common[scope], low)
     out = []
     for s, b, hist, scope in zip(series, bins, hists, scopes, strict=True):
-        slopes = []
+        slopes, kept_means = [], []
         for _ in range(n_repeats):
             keep = mean_match_mask(b, hist, common[scope], rng)
-            slopes.append(weighted_slope(np.where(keep, s.mean, np.nan), s.var, s.n_trials))
+            kept_mean = np.where(keep, s.mean, np.nan)
+            slopes.append(weighted_slope(kept_mean, s.var, s.n_trials))
+            with warnings.catch_warnings():
+                warnings.simplefilter("ignore", RuntimeWarning)  # windows with none kept
+                kept_means.append(np.nanmean(kept_mean, axis=0))
         out.append({"regression": weighted_slope(s.mean, s.var, s.n_trials),
                     "unweighted": slope_through_origin(s.mean, s.var, axis=0),
                     "matched": np.mean(slopes, axis=0),
+                    "kept_mean": np.mean(kept_means, axis=0),
                     "kept": np.full(b.shape[1], int(common[scope].sum()))})
     return out
 
@@ -193,10 +198,13 @@ def population_fano_table(timecourse: pd.DataFrame, *, settings: MeanMatchSettin
 
     Notes
     -----
-    A unit is identified by (session, unit). Units with NaN mean or variance in a window (no
-    trials, single trial) are left out of that window. Fewer than ``min_units`` usable units
-    give NaN values with ``population_reason``; a condition present in some sessions only uses
-    the units that have it (``n_units`` says how many).
+    ``n_units_matched`` is the size of the common distribution (the same in every window of a
+    series, by construction) and ``mean_count_matched`` the mean count of the kept units
+    (averaged over the matchings). Fewer than ``min_units`` kept units give no mean-matched
+    value, with the reason. A unit is identified by (session, unit). Units with NaN mean or
+    variance in a window (no trials, single trial) are left out of that window. Fewer than
+    ``min_units`` usable units give NaN values with ``population_reason``; a condition present
+    in some sessions only uses the units that have it (``n_units`` says how many).
     """
     if len(timecourse) == 0:
         return pd.DataFrame({c: pd.Series(dtype=float if c not in ("group", "condition",
@@ -253,11 +261,14 @@ def population_fano_table(timecourse: pd.DataFrame, *, settings: MeanMatchSettin
         enough = usable >= settings.min_units
         kept = result["kept"]
         no_common = enough & ~(kept > 0)
+        too_few_kept = enough & (kept > 0) & (kept < settings.min_units)
         reason = np.where(enough, "", f"fewer than {settings.min_units} units")
         reason = np.where(no_common, "no common mean-count distribution across windows", reason)
+        reason = np.where(too_few_kept, f"mean matching kept fewer than {settings.min_units} "
+                          "units", reason)
         if n_subjects[k] < 2:
             reason = np.where(reason == "", "single subject: no interval", reason)
-        matched_ok = enough & ~no_common
+        matched_ok = enough & (kept >= settings.min_units)
 
         def nan_unless(x, ok):
             return np.where(ok, x, np.nan)
@@ -275,7 +286,9 @@ def population_fano_table(timecourse: pd.DataFrame, *, settings: MeanMatchSettin
             "fano_regression_unweighted": nan_unless(result["unweighted"], enough),
             "fano_mean_matched": nan_unless(result["matched"], matched_ok),
             "ci_lo": nan_unless(mm_lo[k], matched_ok), "ci_hi": nan_unless(mm_hi[k], matched_ok),
-            "n_units_matched": kept.astype(np.int64), "population_reason": reason}))
+            "n_units_matched": kept.astype(np.int64),
+            "mean_count_matched": nan_unless(result["kept_mean"], matched_ok),
+            "population_reason": reason}))
     table = pd.concat(frames, ignore_index=True)[COLUMNS]
     # a condition absent from a group's sessions has no rows there
     return table[table["n_units"] > 0].reset_index(drop=True) if len(table) else table
