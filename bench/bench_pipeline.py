@@ -30,8 +30,12 @@ from naive_reference import naive_recovery_fit, naive_tables  # noqa: E402
 
 from spikevar.inputs.ingest import ingest_session  # noqa: E402
 from spikevar.inputs.settings import ColumnNames  # noqa: E402
-from spikevar.metrics.session import run_session_metrics  # noqa: E402
-from spikevar.metrics.settings import MetricSettings, SlidingWindows  # noqa: E402
+from spikevar.metrics.session import run_session_metrics, run_session_timecourse  # noqa: E402
+from spikevar.metrics.settings import (  # noqa: E402
+    MetricSettings,
+    SlidingWindows,
+    StabilitySettings,
+)
 from spikevar.recovery.settings import RecoverySettings  # noqa: E402
 from spikevar.recovery.table import run_session_recovery  # noqa: E402
 from spikevar.synth.simulate import ExpRecoveryISI, renewal_train  # noqa: E402
@@ -131,10 +135,17 @@ def main():
         time_sorted_ingestion(work, n)
     if args.ingest_only:
         return
-    timed("spikevar metrics", lambda: run_session_metrics(
-        session="big", spikes_path=out / "spikes.parquet", events_path=out / "events.parquet",
-        outputs={k: out / f"{k}.parquet" for k in ("units", "count_fano", "fano_timecourse")},
-        settings=MetricSettings(), windows=SlidingWindows()), n, r)
+    def metrics():
+        run_session_metrics(
+            session="big", spikes_path=out / "spikes.parquet",
+            outputs={k: out / f"{k}.parquet" for k in ("units", "count_fano", "unit_blocks")},
+            settings=MetricSettings(), stability=StabilitySettings())
+        run_session_timecourse(
+            session="big", spikes_path=out / "spikes.parquet", events_path=out / "events.parquet",
+            output=out / "fano_timecourse.parquet", windows=SlidingWindows(), alignments=[],
+            event_time_column="time")
+
+    timed("spikevar metrics", metrics, n, r)
     timed("spikevar recovery fits", lambda: run_session_recovery(
         session="big", spikes_path=out / "spikes.parquet", output=out / "recovery.parquet",
         settings=RecoverySettings()), n, r)

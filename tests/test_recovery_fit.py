@@ -183,3 +183,20 @@ def test_tau_bounds_are_reported_alike():
     fit = fit_exp_recovery(iv, with_interval=False)
     assert fit.converged and fit.tau_at_bound == "lower"
     assert fit.tau_s == pytest.approx(1e-5, rel=1e-3)
+
+
+def test_large_sample_ks_pvalue_is_close_to_the_exact_one():
+    """Above KS_EXACT_MAX_N the known-parameter p-value uses Stephens' (1970, J R Stat Soc B
+    32:115) corrected asymptotic form; against scipy's exact kstwo it stays within 2%."""
+    from scipy import stats
+
+    from spikevar.recovery.fit import KS_EXACT_MAX_N
+
+    rng = np.random.default_rng(11)
+    n = KS_EXACT_MAX_N + 1
+    for shift in (0.0, 0.004, 0.008, 0.012):
+        z = np.clip(rng.uniform(size=n) + shift * np.sin(np.pi * rng.uniform(size=n)), 0, 1)
+        d, p = ks_uniform(z)
+        exact = stats.kstwo.sf(d, n)
+        if exact > 1e-6:
+            assert abs(p - exact) <= 0.02 * exact, (shift, p, exact)

@@ -147,7 +147,8 @@ TABLES: dict[str, dict[str, tuple[str, str, str]]] = {
                       "(simulated table; size 4-5% measured)", "", "Lilliefors 1969, JASA "
                       "62:399; table from bench/calibrate_ks_null.py"),
         "ks_pvalue_known_params": ("KS p-value as if the parameters were known (too large)",
-                                   "", "scipy kstwo"),
+                                   "", "scipy kstwo; above 10,000 intervals Stephens 1970, "
+                                   "J R Stat Soc B 32:115"),
         "ks_band_95": ("half-width of the 95% KS band for fitted parameters", "", BROWN),
         "nested_lr_pvalue": ("likelihood-ratio p-value of this model against the next simpler "
                              "one (dead_time vs poisson: exact Beta null of the threshold "
