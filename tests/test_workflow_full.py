@@ -300,3 +300,31 @@ def test_the_session_recovery_figure_has_no_text_outside_it(full_run, tmp_path, 
                               output=str(tmp_path / f"{session}.png"), max_units=12)
     assert len(clipped) == len(sheet)
     assert {name: texts for name, texts in clipped.items() if texts} == {}
+
+
+def test_a_cohort_of_one_group_gets_an_empty_differences_table(full_run, tmp_path):
+    """With every session in one group there is nothing to compare: group_summary is written
+    and group_differences has no rows but its usual columns (it used to fail)."""
+    from spikevar.base.layout import ResultsLayout
+    from spikevar.base.parquet_io import read_frame
+    from spikevar.cohort.data_dictionary import TABLES
+    from spikevar.cohort.run import run_group_summary
+    from spikevar.cohort.settings import BootstrapSettings
+
+    out, _, _ = full_run
+    layout = ResultsLayout(str(out))
+    inputs = {}
+    for name in ("units", "count_fano", "recovery", "population_structure", "gain_variance"):
+        frame = read_frame(layout.cohort_output(name))
+        if "group" in frame.columns:
+            frame = frame.assign(group="all")
+        inputs[name] = tmp_path / f"{name}.parquet"
+        frame.to_parquet(inputs[name])
+    run_group_summary(**inputs, summary_out=tmp_path / "summary.parquet",
+                      differences_out=tmp_path / "differences.parquet",
+                      settings=BootstrapSettings(n_boot=20), seed=1)
+    summary = pd.read_parquet(tmp_path / "summary.parquet")
+    differences = pd.read_parquet(tmp_path / "differences.parquet")
+    assert set(summary["group"]) == {"all"} and len(summary) > 0
+    assert len(differences) == 0
+    assert set(TABLES["group_differences"]) <= set(differences.columns)

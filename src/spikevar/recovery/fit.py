@@ -57,24 +57,27 @@ class Intervals:
     censored: float
     censored_weight: float
     compress: bool = True
+    #: plain-sum points of the same intervals when already known (the slow-rate fit's passes)
+    plain: tuple | None = None
 
     @classmethod
     def build(cls, isi, *, censored: float = 0.0, weights=None, censored_weight: float = 1.0,
-              compress: bool = True, order: np.ndarray | None = None):
-        """``order``: the stable ascending order of ``isi`` when already known."""
+              compress: bool = True, order: np.ndarray | None = None, plain=None):
+        """``order``: the stable ascending order of ``isi`` when already known; ``plain``: the
+        plain-sum points of an earlier build of the same intervals."""
         isi = np.asarray(isi, dtype=float)
         w = np.ones_like(isi) if weights is None else np.asarray(weights, dtype=float)
         order = np.argsort(isi, kind="stable") if order is None else order
         return cls(isi=isi[order], weights=w[order], censored=max(float(censored), 0.0),
-                   censored_weight=float(censored_weight), compress=compress)
+                   censored_weight=float(censored_weight), compress=compress, plain=plain)
 
     def __post_init__(self):
         self.n = len(self.isi)
         self.min_isi = float(self.isi[0]) if self.n else np.nan
         self.mean_isi = float(self.isi.mean()) if self.n else np.nan
         if self.compress:
-            (self.sum_x, self.sum_w), (self.log_x, self.log_w) = compressed_sums(self.isi,
-                                                                                 self.weights)
+            (self.sum_x, self.sum_w), (self.log_x, self.log_w) = compressed_sums(
+                self.isi, self.weights, plain=self.plain)
         else:
             self.sum_x, self.sum_w = self.isi, self.weights
             self.log_x, self.log_w = self.isi, np.ones_like(self.isi)
@@ -435,7 +438,10 @@ def fit_exp_recovery_modulated(times: np.ndarray, *, span_s: tuple[float, float]
     for _ in range(iterations):
         w, wc = interval_weights(times, span_s=span_s, bandwidth_s=bandwidth_s, tau_s=tau,
                                  dead_time_s=d or 0.0)
-        iv = Intervals.build(isi, censored=censored, weights=w, censored_weight=wc, order=order)
+        iv = Intervals.build(isi, censored=censored, weights=w, censored_weight=wc, order=order,
+                             plain=None if iv is None else (iv.log_x, iv.log_w))
+        # every pass starts from the grid: a warm start from the last pass was tried and
+        # ended in another optimum (or at a bound) for some units
         new = fit_exp_recovery(iv, with_interval=False)
         if not new.converged:
             fit = new

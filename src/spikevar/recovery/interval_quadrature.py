@@ -99,10 +99,12 @@ def gauss_points(x: np.ndarray, w: np.ndarray, starts: np.ndarray, *, nodes: int
     return point_x[order], point_w[order]
 
 
-def compressed_sums(isi: np.ndarray, weights: np.ndarray, *, ratio: float = BIN_RATIO):
+def compressed_sums(isi: np.ndarray, weights: np.ndarray, *, ratio: float = BIN_RATIO,
+                    plain: tuple[np.ndarray, np.ndarray] | None = None):
     """Points and weights for the likelihood's two kinds of sums over sorted intervals ``isi``:
     ``(x_D, w_D)`` for sums weighted by the interval weights and ``(x_L, w_L)`` for plain sums.
-    Intervals below twice the shortest stay as they are."""
+    Intervals below twice the shortest stay as they are. ``plain``: the plain-sum points of
+    the same intervals, already known (they do not depend on the weights)."""
     if len(isi) == 0 or not isi[0] > 0:
         return (isi, weights), (isi, np.ones_like(isi))
     first, starts = bin_starts(isi, exact_below=2.0 * isi[0], ratio=ratio)
@@ -111,5 +113,7 @@ def compressed_sums(isi: np.ndarray, weights: np.ndarray, *, ratio: float = BIN_
     d_set = (np.concatenate([head, dx]), np.concatenate([weights[:first], dw]))
     if np.all(weights == 1.0):
         return d_set, d_set
+    if plain is not None:
+        return d_set, plain
     lx, lw = gauss_points(tail, np.ones_like(tail), starts)
     return d_set, (np.concatenate([head, lx]), np.concatenate([np.ones(first), lw]))
