@@ -150,6 +150,10 @@ def group_summary(frame: pd.DataFrame, *, n_boot: int, seed: int | None = None,
                             f"p_{name}": float(min(1.0, max(p, 1.0 / n_boot)))})
             out.update(_permutation_columns(frame, metric, a, b, rng=rng))
             diffs.append({**row, **out, "difference_reason": ""})
+    if not diffs:  # one group: nothing to compare, an empty table of the usual columns
+        from spikevar.cohort.data_dictionary import TABLES
+
+        diffs = {c: pd.Series(dtype=object) for c in TABLES["group_differences"]}
     return pd.DataFrame(summary), pd.DataFrame(diffs)
 
 

@@ -38,12 +38,6 @@ def run_group_summary(*, units, count_fano, recovery, population_structure, gain
         gain = gain[gain["included"].astype(bool)]
     s_sum, s_diff = shared_group_summary(read_frame(population_structure), gain,
                                          n_boot=settings.n_boot, rng=rng)
-    if differences.empty:  # one group: nothing to compare, an empty table of the usual columns
-        from spikevar.cohort.data_dictionary import TABLES
-
-        log.info("one group in the cohort: group_differences has no rows.")
-        differences = pd.DataFrame({c: pd.Series(dtype=object)
-                                    for c in TABLES["group_differences"] if c not in STRATA})
     summary = _with_strata(summary, s_sum, lead=["metric", "metric_label"])
     differences = _with_strata(differences, s_diff, lead=["metric"])
     summary = with_factor_columns(summary, tuple(factors))
