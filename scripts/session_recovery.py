@@ -17,4 +17,5 @@ with rule_job(snakemake, step="recovery") as sm:  # noqa: F821
         output=sm.output[0],
         settings=settings_from(RecoverySettings, sm.params.recovery, section="recovery"),
         span=sm.params.span,
+        workers=sm.threads,
     )

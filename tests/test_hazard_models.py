@@ -39,7 +39,8 @@ def test_fitted_parameters_a_model_does_not_have_are_ignored():
 def test_fit_likelihood_is_the_sum_of_log_model_densities():
     # the fit's profile likelihood (rate profiled out: r = n / sum G) must be the log density
     # of the same closed form, so fits, goodness of fit and figures describe one model
-    from spikevar.recovery.fit import Intervals, exp_recovery_profile_loglik
+    from spikevar.recovery.exp_likelihood import profile_loglik as exp_recovery_profile_loglik
+    from spikevar.recovery.fit import Intervals
 
     rng = np.random.default_rng(4)
     isi = np.sort(0.002 + rng.exponential(0.03, 400))

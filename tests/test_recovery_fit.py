@@ -5,10 +5,11 @@ import pytest
 from scipy import stats
 
 from spikevar.recovery import hazard_models
+from spikevar.recovery.exp_likelihood import objective as exp_recovery_objective
+from spikevar.recovery.exp_likelihood import objective_with_hessian
+from spikevar.recovery.exp_likelihood import profile_loglik as exp_recovery_profile_loglik
 from spikevar.recovery.fit import (
     Intervals,
-    exp_recovery_objective,
-    exp_recovery_profile_loglik,
     fit_all,
     fit_dead_time,
     fit_exp_recovery,
@@ -67,6 +68,27 @@ def test_gradient_matches_finite_differences():
         fd = (exp_recovery_objective(theta + step, iv)[0]
               - exp_recovery_objective(theta - step, iv)[0]) / (2 * eps)
         assert grad[j] == pytest.approx(fd, rel=1e-4)
+
+
+@pytest.mark.parametrize("weighted", [False, True])
+def test_hessian_matches_finite_differences_of_the_gradient(weighted):
+    # the Newton fits use the closed-form Hessian; check it against central differences of the
+    # (separately tested) gradient, with and without slow-rate weights and the censored term
+    iv, _ = intervals(simulate.ExpRecoveryISI(40.0, 0.008, 0.0015), 60, 2)
+    if weighted:
+        w = np.random.default_rng(3).uniform(0.5, 1.5, iv.n)
+        iv = Intervals.build(iv.isi, censored=0.05, weights=w / w.mean(), censored_weight=1.2)
+    for theta in (np.array([np.log(0.006), 0.4]), np.array([np.log(0.02), 0.0])):
+        value, grad, hess = objective_with_hessian(theta, iv)
+        assert value == pytest.approx(exp_recovery_objective(theta, iv)[0], rel=1e-12)
+        np.testing.assert_allclose(grad, exp_recovery_objective(theta, iv)[1], rtol=1e-12)
+        eps = 1e-6
+        for j in range(2):
+            step = np.zeros(2)
+            step[j] = eps
+            fd = (exp_recovery_objective(theta + step, iv)[1]
+                  - exp_recovery_objective(theta - step, iv)[1]) / (2 * eps)
+            np.testing.assert_allclose(hess[:, j], fd, rtol=1e-4, atol=1e-6 * np.abs(hess).max())
 
 
 def test_exp_recovery_unbiased_and_interval_coverage():
@@ -200,3 +222,43 @@ def test_large_sample_ks_pvalue_is_close_to_the_exact_one():
         exact = stats.kstwo.sf(d, n)
         if exact > 1e-6:
             assert abs(p - exact) <= 0.02 * exact, (shift, p, exact)
+
+
+def test_tau_interval_ends_sit_on_the_95_percent_level():
+    # the profile-likelihood interval (Venzon & Moolgavkar 1988, Appl Stat 37:87): at each end
+    # the log-likelihood maximised over the other parameters is 1.92 below its maximum
+    from spikevar.recovery.fit import CHI2_95_HALF, _profile_over_d
+
+    for seed in range(4):
+        iv, _ = intervals(simulate.ExpRecoveryISI(30.0, 0.006 + 0.004 * seed, 0.001), 120, seed)
+        fit = fit_exp_recovery(iv)
+        for end in fit.tau_ci:
+            level, _, _ = _profile_over_d(iv, float(np.log(end)), 0.5)
+            assert level == pytest.approx(fit.log_likelihood - CHI2_95_HALF, abs=1e-4)
+        # and the profile is higher everywhere inside
+        inside = np.exp(np.linspace(np.log(fit.tau_ci[0]), np.log(fit.tau_ci[1]), 7)[1:-1])
+        for tau in inside:
+            level, _, _ = _profile_over_d(iv, float(np.log(tau)), 0.5)
+            assert level > fit.log_likelihood - CHI2_95_HALF
+
+
+def test_the_table_does_not_depend_on_the_number_of_worker_processes(monkeypatch):
+    from spikevar.base.spike_arrays import SpikeArrays
+    from spikevar.recovery import table
+
+    rng = np.random.default_rng(8)
+    units, times = [], []
+    for k in range(11):
+        t = simulate.renewal_train(simulate.ExpRecoveryISI(20.0, 0.005, 0.001),
+                                   duration_s=30.0, rng=rng)
+        units += [f"u{k}"] * len(t)
+        times.append(t)
+    spikes = SpikeArrays.from_arrays(units, np.concatenate(times))
+    monkeypatch.setattr(table, "PARALLEL_MIN_SPIKES", 0)
+    monkeypatch.setattr(table, "UNITS_PER_TASK", 3)
+    one = table.recovery_table(spikes, span_s=(0.0, 30.0), settings=RecoverySettings())
+    two = table.recovery_table(spikes, span_s=(0.0, 30.0), settings=RecoverySettings(),
+                               workers=2)
+    pd = pytest.importorskip("pandas")
+    pd.testing.assert_frame_equal(one, two)
+    assert list(one["unit"].unique()) == list(spikes.labels)

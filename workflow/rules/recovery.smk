@@ -14,6 +14,7 @@ rule session_recovery:
         **LAYOUT.session_logs("{session}", "recovery"),
     benchmark:
         LAYOUT.session_benchmark("{session}", "session_recovery")
+    threads: 2
     conda:
         "../envs/spikevar.yaml"
     group:

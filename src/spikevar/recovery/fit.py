@@ -29,16 +29,15 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
-from scipy import optimize, stats
+from scipy import stats
 
-from spikevar.recovery import hazard_models
+from spikevar.recovery import exp_likelihood, hazard_models
+from spikevar.recovery.box_newton import minimise_in_box
 from spikevar.recovery.interval_quadrature import compressed_sums
-from spikevar.recovery.slow_rate import interval_weights
+from spikevar.recovery.slow_rate import interval_weights, kernel_rate
 
 MODELS = ("poisson", "dead_time", "exp_recovery")
 N_PARAMS = {"poisson": 1, "dead_time": 2, "exp_recovery": 3}
-#: beyond this many time constants the recovery is complete to double precision (exp(-36) < eps)
-FAR = 36.0
 CHI2_95_HALF = stats.chi2.ppf(0.95, 1) / 2  # 1.9207: profile-likelihood drop for a 95% interval
 
 
@@ -57,105 +56,41 @@ class Intervals:
     censored: float
     censored_weight: float
     compress: bool = True
-    #: plain-sum points of the same intervals when already known (the slow-rate fit's passes)
-    plain: tuple | None = None
+    #: an earlier build of the same intervals (other weights) whose bin layout and plain-sum
+    #: points are reused (the slow-rate fit's passes)
+    same_intervals: Intervals | None = None
 
     @classmethod
     def build(cls, isi, *, censored: float = 0.0, weights=None, censored_weight: float = 1.0,
-              compress: bool = True, order: np.ndarray | None = None, plain=None):
-        """``order``: the stable ascending order of ``isi`` when already known; ``plain``: the
-        plain-sum points of an earlier build of the same intervals."""
+              compress: bool = True, order: np.ndarray | None = None,
+              same_intervals: Intervals | None = None):
+        """``order``: the ascending order of ``isi`` when already known; ``same_intervals``: an
+        earlier build of the same intervals, whose weight-free work is reused."""
         isi = np.asarray(isi, dtype=float)
         w = np.ones_like(isi) if weights is None else np.asarray(weights, dtype=float)
-        order = np.argsort(isi, kind="stable") if order is None else order
+        order = np.argsort(isi) if order is None else order
         return cls(isi=isi[order], weights=w[order], censored=max(float(censored), 0.0),
-                   censored_weight=float(censored_weight), compress=compress, plain=plain)
+                   censored_weight=float(censored_weight), compress=compress,
+                   same_intervals=same_intervals)
 
     def __post_init__(self):
         self.n = len(self.isi)
         self.min_isi = float(self.isi[0]) if self.n else np.nan
         self.mean_isi = float(self.isi.mean()) if self.n else np.nan
+        self.layout = None
         if self.compress:
-            (self.sum_x, self.sum_w), (self.log_x, self.log_w) = compressed_sums(
-                self.isi, self.weights, plain=self.plain)
+            earlier = self.same_intervals
+            plain = None if earlier is None else (earlier.log_x, earlier.log_w)
+            (self.sum_x, self.sum_w), (self.log_x, self.log_w), self.layout = compressed_sums(
+                self.isi, self.weights, plain=plain,
+                layout=None if earlier is None else earlier.layout)
+            self.same_intervals = None  # used; do not keep a chain of earlier builds alive
         else:
             self.sum_x, self.sum_w = self.isi, self.weights
             self.log_x, self.log_w = self.isi, np.ones_like(self.isi)
         self._cw = np.concatenate([[0.0], np.cumsum(self.sum_w)])
         self._cws = np.concatenate([[0.0], np.cumsum(self.sum_w * self.sum_x)])
         self.sum_log_w = float(np.log(self.weights).sum())
-
-
-def _recovery_terms(iv: Intervals, tau: float, d: float):
-    """Weighted sums for the exp_recovery profile likelihood and its gradient.
-
-    Returns ``D, dD/dtau, dD/dd, L, dL/dtau, dL/dd`` where ``D = sum w G + w_c G(c)`` and
-    ``L = sum log g``. Intervals more than 36 tau past d are summed in closed form from prefix
-    sums (their recovery is complete), so the cost scales with the short intervals only. The
-    sums run over the stand-in points of :class:`Intervals`.
-    """
-    cut = d + FAR * tau
-    k = int(np.searchsorted(iv.sum_x, cut, side="left"))
-    u = iv.sum_x[:k] - d
-    w = iv.sum_w[:k]
-    x = u / tau
-    e = np.exp(-x)
-    one_minus_e = -np.expm1(-x)
-    G = u - tau * one_minus_e
-    # plain sums, not BLAS dot products: exact-order summation and no thread start-up per call
-    D = float((w * G).sum())
-    dD_tau = float((w * (x * e - one_minus_e)).sum())
-    dD_d = float(-(w * one_minus_e).sum())
-    if iv.log_x is not iv.sum_x:  # weighted intervals: the plain sums have points of their own
-        kl = int(np.searchsorted(iv.log_x, cut, side="left"))
-        x = (iv.log_x[:kl] - d) / tau
-        e = np.exp(-x)
-        one_minus_e = -np.expm1(-x)
-        wl = iv.log_w[:kl]
-    else:
-        wl = iv.log_w[:k]
-    with np.errstate(divide="ignore", invalid="ignore"):
-        L = float((wl * np.log(one_minus_e)).sum())
-        inv = wl * e / one_minus_e
-        dL_tau = float(-(inv * x).sum() / tau)
-        dL_d = float(-inv.sum() / tau)
-    far_w = iv._cw[-1] - iv._cw[k]
-    far_ws = iv._cws[-1] - iv._cws[k]
-    D += far_ws - d * far_w - tau * far_w
-    dD_tau -= far_w
-    dD_d -= far_w
-    uc = iv.censored - d
-    if uc > 0:
-        xc = uc / tau
-        ec = np.exp(-xc)
-        rec = -np.expm1(-xc)  # 1 - exp(-xc)
-        D += iv.censored_weight * (uc - tau * rec)
-        dD_tau += iv.censored_weight * (xc * ec - rec)
-        dD_d -= iv.censored_weight * rec
-    return D, dD_tau, dD_d, L, dL_tau, dL_d
-
-
-def exp_recovery_profile_loglik(iv: Intervals, tau: float, d: float) -> float:
-    """Profile log-likelihood (rate maximised out) of exp_recovery at ``(tau, d)``."""
-    D, _, _, L, _, _ = _recovery_terms(iv, tau, d)
-    if not np.isfinite(L) or D <= 0:
-        return -np.inf
-    return iv.n * np.log(iv.n / D) + iv.sum_log_w + L - iv.n
-
-
-def exp_recovery_objective(theta, iv: Intervals):
-    """Negative profile log-likelihood of exp_recovery and its gradient, in the optimiser's
-    coordinates ``theta = (log tau, d / shortest interval)`` (public so tests can check the
-    gradient against finite differences)."""
-    log_tau, d_frac = theta
-    tau, d = np.exp(log_tau), d_frac * iv.min_isi
-    D, dD_tau, dD_d, L, dL_tau, dL_d = _recovery_terms(iv, tau, d)
-    if not np.isfinite(L) or D <= 0:
-        return 1e300, np.zeros(2)
-    ll = iv.n * np.log(iv.n / D) + iv.sum_log_w + L - iv.n
-    g_tau = -iv.n / D * dD_tau + dL_tau
-    g_d = -iv.n / D * dD_d + dL_d
-    return -ll, -np.array([g_tau * tau, g_d * iv.min_isi])
 
 
 @dataclass
@@ -208,57 +143,67 @@ def _tau_bounds(iv: Intervals) -> tuple[float, float]:
 PROJECTED_GRADIENT_TOL = 1e-3
 
 
-def projected_gradient(x: np.ndarray, grad: np.ndarray, bounds) -> np.ndarray:
-    """The gradient with components that point out of the box at an active bound set to 0."""
-    pg = np.array(grad, dtype=float)
-    for i, (lo, hi) in enumerate(bounds):
-        if x[i] <= lo + 1e-9 and pg[i] > 0:  # minimising: a positive gradient pushes to lo
-            pg[i] = 0.0
-        elif x[i] >= hi - 1e-9 and pg[i] < 0:
-            pg[i] = 0.0
-    return pg
+#: the likelihood is zero at d = shortest interval: (log tau, d) bounds, open for d's upper
+D_OPEN_UPPER = np.array([False, True])
+
+
+def _box(iv: Intervals):
+    lo, hi = _tau_bounds(iv)
+    return np.array([np.log(lo), 0.0]), np.array([np.log(hi), 1.0 - 1e-6])
 
 
 def fit_exp_recovery(iv: Intervals, *, with_interval: bool = True) -> Fit:
-    """Joint MLE of ``(r_inf, tau, d)`` with L-BFGS-B on ``(log tau, d / min_isi)``.
+    """Joint MLE of ``(r_inf, tau, d)`` by Newton's method on ``(log tau, d / min_isi)``.
 
     Notes
     -----
     Starts from the best of a small grid of ``tau`` (fractions of the mean interval) and two
-    dead times. ``converged`` is True when the optimiser reports success or when it stopped
-    (L-BFGS-B's "abnormal termination in line search" happens at the optimum, where rounding
-    stops the line search) with a projected gradient below ``PROJECTED_GRADIENT_TOL``.
-    ``tau_at_bound`` is ``"lower"`` (10 us: the dead-time limit) or ``"upper"`` (20 mean
-    intervals: recovery slower than the data resolve); both are converged fits whose tau is a
-    bound, not a measurement, and group summaries leave both out alike and count them. The 95%
-    interval for ``tau`` is the profile-likelihood interval (``d`` re-optimised at each
-    ``tau``); an end that reaches a bound is reported as 0 or inf. No interval is given at the
-    upper bound.
+    dead times, then takes projected Newton steps with the analytic Hessian inside the bounds
+    (:mod:`spikevar.recovery.box_newton`). When ``tau`` ends below the shortest interval the
+    likelihood can have two maxima (``tau`` at its lower bound with ``d`` just under the
+    shortest interval, and a short ``tau`` with a smaller ``d``); Newton's method then also
+    starts in each and the best is kept. ``converged`` is True when the projected gradient
+    ends below ``PROJECTED_GRADIENT_TOL``. ``tau_at_bound`` is ``"lower"`` (10 us: the
+    dead-time limit) or ``"upper"`` (20 mean intervals: recovery slower than the data
+    resolve); both are converged fits whose tau is a bound, not a measurement, and group
+    summaries leave both out alike and count them. The 95% interval for ``tau`` is the
+    profile-likelihood interval (``d`` re-optimised at each ``tau``); an end that reaches a
+    bound is reported as 0 or inf. No interval is given at the upper bound.
     """
     if not iv.min_isi > 0:
         return Fit("exp_recovery", note="zero-length interval (duplicate spike times): the "
                    "recovery model gives it zero probability")
-    lo, hi = _tau_bounds(iv)
-    bounds = [(np.log(lo), np.log(hi)), (0.0, 1.0 - 1e-6)]
+    lower, upper = _box(iv)
+    lo, hi = np.exp(lower[0]), np.exp(upper[0])
     starts = [(np.log(np.clip(f * iv.mean_isi, lo, hi)), df)
               for f in (0.01, 0.03, 0.1, 0.3, 1.0) for df in (0.0, 0.5)]
-    values = [exp_recovery_objective(np.array(s), iv)[0] for s in starts]
+    values = [exp_likelihood.objective(np.array(s), iv)[0] for s in starts]
     x0 = np.array(starts[int(np.argmin(values))])
-    res = optimize.minimize(exp_recovery_objective, x0, args=(iv,), jac=True, method="L-BFGS-B",
-                            bounds=bounds, options={"maxiter": 200, "ftol": 1e-12,
-                                                    "gtol": 1e-8})
+    def newton_from(start):
+        return minimise_in_box(lambda th: exp_likelihood.objective_with_hessian(th, iv), start,
+                               lower, upper, open_upper=D_OPEN_UPPER)
+
+    res = newton_from(x0)
+    if np.exp(res.x[0]) < iv.min_isi:
+        # recovery faster than the shortest interval: the likelihood can have a second
+        # maximum (tau at its lower bound with d just under the shortest interval, or a short
+        # tau with a smaller d); start once in each and keep the best
+        for start in ((lower[0], 0.9), (np.log(iv.min_isi), 0.0)):
+            other = newton_from(np.array(start))
+            if other.fun < res.fun - 1e-9 * abs(res.fun):
+                res = other
     tau, d = float(np.exp(res.x[0])), float(res.x[1] * iv.min_isi)
-    ll = -float(res.fun)
-    D = _recovery_terms(iv, tau, d)[0]
-    pg = projected_gradient(res.x, res.jac, bounds)
-    converged = bool(res.success) or bool(np.max(np.abs(pg)) < PROJECTED_GRADIENT_TOL)
+    ll = -res.fun
+    D = exp_likelihood.recovery_terms(iv, tau, d)[0]
+    worst = float(np.max(np.abs(res.projected_grad)))
+    converged = bool(np.isfinite(ll)) and worst < PROJECTED_GRADIENT_TOL
     note, at_bound = "", ""
-    if res.x[0] >= np.log(hi) - 1e-6:
+    if res.x[0] >= upper[0] - 1e-6:
         at_bound, note = "upper", "tau at upper bound: recovery slower than the data resolve"
-    elif res.x[0] <= np.log(lo) + 1e-6:
+    elif res.x[0] <= lower[0] + 1e-6:
         at_bound, note = "lower", "tau at lower bound: dead-time limit"
     if not converged:
-        note = f"optimiser: {res.message}; projected gradient {np.max(np.abs(pg)):.2g}"
+        note = f"optimiser: {res.message}; projected gradient {worst:.2g}"
     fit = Fit("exp_recovery", rate_hz=iv.n / D, tau_s=tau, dead_time_s=d, log_likelihood=ll,
               converged=converged, note=note, tau_at_bound=at_bound)
     if with_interval and converged and at_bound != "upper":
@@ -266,59 +211,95 @@ def fit_exp_recovery(iv: Intervals, *, with_interval: bool = True) -> Fit:
     return fit
 
 
-def _profile_over_d(iv: Intervals, tau: float, d_start: float) -> tuple[float, float]:
-    """``max_d loglik(tau, d)`` over ``0 <= d < min_isi`` (1-D L-BFGS-B, warm-started).
+def _profile_over_d(iv: Intervals, log_tau: float, d_frac: float) -> tuple[float, float, float]:
+    """``max_d loglik(tau, d)`` over ``0 <= d < min_isi`` by Newton steps in ``d`` (warm
+    start ``d_frac`` = d / min_isi). Returns the maximum, its slope in ``log tau`` (by the
+    envelope theorem the partial derivative at the maximising ``d``) and that ``d_frac``."""
+    lower, upper = _box(iv)
 
-    Returns the maximum and the maximising ``d``.
+    def along_d(frac):
+        value, grad, hess = exp_likelihood.objective_with_hessian(
+            np.array([log_tau, frac[0]]), iv)
+        return value, grad[1:], hess[1:, 1:]
+
+    res = minimise_in_box(along_d, [d_frac], lower[1:], upper[1:],
+                          open_upper=D_OPEN_UPPER[1:])
+    slope = -exp_likelihood.objective(np.array([log_tau, res.x[0]]), iv)[1][0]
+    return -res.fun, slope, float(res.x[0])
+
+
+#: tolerance in log tau on each end of the tau interval
+TAU_INTERVAL_XTOL = 1e-6
+
+
+def _interval_end(excess, x_hat: float, edge: float, direction: int, step: float):
+    """Where the profile log-likelihood crosses the 95% level on one side of its maximum.
+
+    Newton's method on ``excess`` (the profile minus the level, with its slope), kept inside
+    a bracket once the crossing is bracketed (bisection when a step would leave it) and
+    stepping outward, doubling, until it is. Returns None when ``excess`` stays positive up to
+    ``edge`` (the interval reaches the bound).
     """
-    def negative(frac):
-        value, grad = exp_recovery_objective(np.array([np.log(tau), frac[0]]), iv)
-        return value, grad[1:]
-
-    start = np.clip(d_start / iv.min_isi, 0.0, 1.0 - 1e-6)
-    res = optimize.minimize(negative, np.array([start]), jac=True, method="L-BFGS-B",
-                            bounds=[(0.0, 1.0 - 1e-6)], options={"ftol": 1e-12, "gtol": 1e-8})
-    return -float(res.fun), float(res.x[0] * iv.min_isi)
+    inner, outer = x_hat, None
+    x = float(np.clip(x_hat + direction * step, min(x_hat, edge), max(x_hat, edge)))
+    for _ in range(100):
+        f, slope = excess(x)
+        if f > 0:
+            inner = x
+            if x == edge:
+                return None
+        else:
+            outer = x
+        newton = x - f / slope if slope * direction < 0 else None
+        if outer is None:
+            reach = 2.0 * abs(x - x_hat)
+            new = x + direction * reach if newton is None else newton
+            # at least a little further out, at most twice as far from the maximum
+            new = x_hat + direction * min(max(direction * (new - x_hat), abs(x - x_hat) * 1.1),
+                                          reach)
+            new = float(np.clip(new, min(x_hat, edge), max(x_hat, edge)))
+        else:
+            a, b = sorted((inner, outer))
+            new = newton if newton is not None and a < newton < b else 0.5 * (a + b)
+            if abs(new - x) < TAU_INTERVAL_XTOL or b - a < TAU_INTERVAL_XTOL:
+                return float(new)
+        x = new
+    return float(x)
 
 
 def profile_tau_interval(iv: Intervals, *, tau_hat: float, loglik_hat: float,
                          d_hat: float | None = None):
     """95% profile-likelihood interval for ``tau`` (drop of chi2_1(0.95)/2 = 1.92).
 
-    Each end is bracketed by steps in ``log tau`` sized from the curvature seen in a first small
-    step, then located by Brent's method; ``d`` is re-maximised at every ``tau`` (warm start).
-    An end that reaches the ``tau`` bounds is reported as 0 (lower) or inf (upper).
+    Each end is found by Newton's method on the profile log-likelihood in ``log tau`` (its
+    slope is the partial derivative at the re-maximised ``d``), safeguarded by bisection, to
+    ``TAU_INTERVAL_XTOL`` in ``log tau``; the first step is sized from the curvature at the
+    maximum. ``d`` is re-maximised at every ``tau`` (warm start). An end that reaches the
+    ``tau`` bounds is reported as 0 (lower) or inf (upper), and so is an end beyond which the
+    profile rises above the level again at the bound (the likelihood's second maximum at the
+    lower bound; the interval then covers the whole 95% set, not only the part around the
+    maximum).
     """
-    lo, hi = _tau_bounds(iv)
+    lower, upper = _box(iv)
     target = loglik_hat - CHI2_95_HALF
-    x_hat = np.log(tau_hat)
-    d_now = {"d": iv.min_isi * 0.5 if d_hat is None else d_hat}
-
-    def excess(log_tau):
-        value, d_now["d"] = _profile_over_d(iv, float(np.exp(log_tau)), d_now["d"])
-        return value - target
-
+    x_hat = float(np.log(tau_hat))
+    d_start = 0.5 if d_hat is None else float(np.clip(d_hat / iv.min_isi, lower[1], upper[1]))
+    _, _, hess = exp_likelihood.objective_with_hessian(np.array([x_hat, d_start]), iv)
+    curvature = hess[0, 0] - (hess[0, 1] ** 2 / hess[1, 1] if hess[1, 1] > 0 else 0.0)
+    step = float(np.sqrt(2 * CHI2_95_HALF / curvature)) if curvature > 0 else 0.05
+    step = min(max(step, 1e-4), 5.0)
     ends = []
-    for direction, edge, fallback in ((-1, np.log(lo), 0.0), (1, np.log(hi), np.inf)):
-        d_now["d"] = iv.min_isi * 0.5 if d_hat is None else d_hat
-        inner, step = x_hat, 0.05
-        outer = np.clip(x_hat + direction * step, np.log(lo), np.log(hi))
-        f_outer = excess(outer)
-        if f_outer > 0:
-            drop = max(CHI2_95_HALF - f_outer, 1e-6)
-            step = min(step * np.sqrt(CHI2_95_HALF / drop) * 1.25, 50.0)
-        while f_outer > 0:
-            if outer == edge:
-                break
-            inner = outer
-            outer = float(np.clip(x_hat + direction * step, np.log(lo), np.log(hi)))
-            f_outer = excess(outer)
-            step *= 2
-        if f_outer > 0:
-            ends.append(fallback)
-            continue
-        a, b = sorted((inner, outer))
-        ends.append(float(np.exp(optimize.brentq(excess, a, b, xtol=1e-3))))
+    for direction, edge, fallback in ((-1, lower[0], 0.0), (1, upper[0], np.inf)):
+        d_now = {"frac": d_start}
+
+        def excess(log_tau, d_now=d_now):
+            value, slope, d_now["frac"] = _profile_over_d(iv, log_tau, d_now["frac"])
+            return value - target, slope
+
+        end = _interval_end(excess, x_hat, float(edge), direction, step)
+        if end is not None and excess(float(edge))[0] > 0:
+            end = None  # the profile rises above the level again at the bound (a second mode)
+        ends.append(fallback if end is None else float(np.exp(end)))
     return ends[0], ends[1]
 
 
@@ -351,7 +332,7 @@ def ks_uniform(z: np.ndarray) -> tuple[float, float]:
     n = len(z)
     if n == 0:
         return np.nan, np.nan
-    zs = np.sort(z)
+    zs = z if np.all(z[1:] >= z[:-1]) else np.sort(z)  # stationary fits: already in order
     i = np.arange(1, n + 1)
     d = float(max(np.max(i / n - zs), np.max(zs - (i - 1) / n)))
     if n > KS_EXACT_MAX_N:
@@ -422,24 +403,30 @@ def fit_all(iv: Intervals, *, with_interval: bool = True) -> list[Fit]:
 
 def fit_exp_recovery_modulated(times: np.ndarray, *, span_s: tuple[float, float],
                                bandwidth_s: float, iterations: int = 4,
-                               with_interval: bool = True) -> tuple[Fit, Intervals]:
+                               with_interval: bool = True,
+                               order: np.ndarray | None = None,
+                               same_intervals: Intervals | None = None) -> tuple[Fit, Intervals]:
     """exp_recovery with the rate multiplied by the unit's own slow rate (non-stationary fit).
 
     Alternates: (1) weights from the kernel-smoothed rate, converted to the free rate with the
     current ``(tau, d)``; (2) maximum-likelihood fit of ``(r_inf, tau, d)`` given the weights.
     The first pass uses the output rate itself. Returns the fit and the weighted intervals
-    (for time rescaling).
+    (for time rescaling). ``order``: the ascending order of the intervals, and
+    ``same_intervals``: the stationary fit's intervals built in that order, when the caller has
+    them.
     """
     isi = np.diff(times)
-    order = np.argsort(isi, kind="stable")  # the same at every pass; only the weights change
+    if order is None:  # the same at every pass; only the weights change
+        order = np.argsort(isi)
     censored = span_s[1] - times[-1]
     tau = d = None
-    fit = iv = None
+    fit, iv = None, same_intervals
+    smoothed = kernel_rate(times, span_s=span_s, bandwidth_s=bandwidth_s)
     for _ in range(iterations):
         w, wc = interval_weights(times, span_s=span_s, bandwidth_s=bandwidth_s, tau_s=tau,
-                                 dead_time_s=d or 0.0)
+                                 dead_time_s=d or 0.0, smoothed=smoothed)
         iv = Intervals.build(isi, censored=censored, weights=w, censored_weight=wc, order=order,
-                             plain=None if iv is None else (iv.log_x, iv.log_w))
+                             same_intervals=iv)
         # every pass starts from the grid: a warm start from the last pass was tried and
         # ended in another optimum (or at a bound) for some units
         new = fit_exp_recovery(iv, with_interval=False)

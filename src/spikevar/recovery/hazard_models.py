@@ -14,7 +14,7 @@ the survival function ``S(s) = exp(-H(s))`` and the ISI density ``h(s) * S(s)``.
 from __future__ import annotations
 
 import numpy as np
-from scipy import integrate, special
+from scipy import special
 
 
 def _u_and_g(s, tau, dead_time):
@@ -24,9 +24,15 @@ def _u_and_g(s, tau, dead_time):
         return u, u
     x = u / tau
     # u - tau * (1 - exp(-x)) = tau * (x + expm1(-x)); the series keeps precision for small x.
-    small = x < 1e-4
     g = tau * (x + np.expm1(-x))
-    g = np.where(small, tau * (x**2 / 2 - x**3 / 6 + x**4 / 24), g)
+    small = np.flatnonzero(x < 1e-4)
+    if small.size:
+        xs = x[small] if np.ndim(x) else x
+        g_small = tau * (xs**2 / 2 - xs**3 / 6 + xs**4 / 24)
+        if np.ndim(g):
+            g[small] = g_small
+        else:
+            g = g_small
     return u, g
 
 
@@ -113,6 +119,8 @@ def exp_recovery_moments(*, asymptotic_rate_hz, tau_s, dead_time_s=0.0):
     -------
     mean_s, cv : float
     """
+    from scipy import integrate  # here, not at import: the fitting rules do not need it
+
     kw = dict(asymptotic_rate_hz=asymptotic_rate_hz, tau_s=tau_s, dead_time_s=0.0)
     # integrate over u = s - d, where the survival is 1 for s < d.
     upper = dead_time_s + tau_s + 60.0 / asymptotic_rate_hz

@@ -19,6 +19,8 @@ relative on simulated units; 2.5e-7 on the demo cohort).
 
 from __future__ import annotations
 
+from dataclasses import dataclass
+
 import numpy as np
 
 #: ratio of a bin's upper to its lower edge (bins 2% wide)
@@ -38,26 +40,50 @@ def bin_starts(isi: np.ndarray, *, exact_below: float, ratio: float = BIN_RATIO)
     return first, starts
 
 
-def gauss_points(x: np.ndarray, w: np.ndarray, starts: np.ndarray, *, nodes: int = NODES):
+@dataclass
+class BinLayout:
+    """How the sorted intervals above ``first`` fall into bins: everything the Gauss rules
+    need that does not depend on the weights (built once per unit, reused by every pass of the
+    slow-rate fit)."""
+
+    first: int
+    starts: np.ndarray
+    bin_of: np.ndarray
+    keep: np.ndarray
+    big: np.ndarray
+    centre: np.ndarray
+    half: np.ndarray
+    #: each interval in its bin's local coordinate, in [-1, 1]
+    t: np.ndarray
+
+    @classmethod
+    def of(cls, isi: np.ndarray, *, ratio: float = BIN_RATIO, nodes: int = NODES) -> BinLayout:
+        first, starts = bin_starts(isi, exact_below=2.0 * isi[0], ratio=ratio)
+        x = isi[first:]
+        n = len(x)
+        counts = np.diff(np.append(starts, n))
+        bin_of = np.repeat(np.arange(len(starts)), counts)
+        small = counts <= nodes
+        if n == 0:
+            lo = hi = np.zeros(0)
+        else:
+            lo, hi = x[starts], x[np.append(starts[1:], n) - 1]
+        # a local coordinate in [-1, 1] per bin keeps the recurrence well conditioned
+        centre = 0.5 * (lo + hi)
+        half = np.maximum(0.5 * (hi - lo), np.finfo(float).tiny)
+        t = (x - centre[bin_of]) / half[bin_of] if n else x.copy()
+        return cls(first=first, starts=starts, bin_of=bin_of, keep=small[bin_of],
+                   big=np.flatnonzero(~small), centre=centre, half=half, t=t)
+
+
+def gauss_points(x: np.ndarray, w: np.ndarray, layout: BinLayout, *, nodes: int = NODES):
     """Nodes and weights of the ``nodes``-point Gauss rule of each bin of the sorted ``x``
-    with weights ``w`` (bins begin at ``starts``); bins with at most ``nodes`` intervals keep
-    their intervals. Returns the points in ascending order and their weights."""
+    (the intervals above ``layout.first``) with weights ``w``; bins with at most ``nodes``
+    intervals keep their intervals. Returns the points in ascending order and their weights."""
     n = len(x)
-    if n == 0:
+    big, starts, bin_of, t = layout.big, layout.starts, layout.bin_of, layout.t
+    if n == 0 or len(big) == 0:
         return x.copy(), w.copy()
-    counts = np.diff(np.append(starts, n))
-    bin_of = np.repeat(np.arange(len(starts)), counts)
-    small = counts <= nodes
-    keep = small[bin_of]
-    big = np.flatnonzero(~small)
-    if len(big) == 0:
-        return x.copy(), w.copy()
-    # a local coordinate in [-1, 1] per bin keeps the recurrence well conditioned
-    lo = x[starts]
-    hi = x[np.append(starts[1:], n) - 1]
-    centre = 0.5 * (lo + hi)
-    half = np.maximum(0.5 * (hi - lo), np.finfo(float).tiny)
-    t = (x - centre[bin_of]) / half[bin_of]
 
     def bin_sum(values):
         return np.add.reduceat(values, starts)[big]
@@ -66,11 +92,12 @@ def gauss_points(x: np.ndarray, w: np.ndarray, starts: np.ndarray, *, nodes: int
     beta = np.zeros((len(big), nodes))  # beta[:, 0] unused
     p_prev = np.zeros(n)
     p_now = np.ones(n)
+    wp2 = w  # w * p_now ** 2
     norm_prev = None
     norm = total = bin_sum(w)
     for j in range(nodes):
         with np.errstate(invalid="ignore", divide="ignore"):
-            alpha[:, j] = np.where(norm > 0, bin_sum(w * t * p_now * p_now) / norm, 0.0)
+            alpha[:, j] = np.where(norm > 0, bin_sum(wp2 * t) / norm, 0.0)
             if j > 0:
                 beta[:, j] = np.where(norm_prev > 0, norm / norm_prev, 0.0)
         if j == nodes - 1:
@@ -80,7 +107,8 @@ def gauss_points(x: np.ndarray, w: np.ndarray, starts: np.ndarray, *, nodes: int
         a_full[big] = alpha[:, j]
         b_full[big] = beta[:, j]
         p_prev, p_now = p_now, (t - a_full[bin_of]) * p_now - b_full[bin_of] * p_prev
-        norm_prev, norm = norm, bin_sum(w * p_now * p_now)
+        wp2 = w * p_now * p_now
+        norm_prev, norm = norm, bin_sum(wp2)
     jacobi = np.zeros((len(big), nodes, nodes))
     idx = np.arange(nodes)
     jacobi[:, idx, idx] = alpha
@@ -88,9 +116,11 @@ def gauss_points(x: np.ndarray, w: np.ndarray, starts: np.ndarray, *, nodes: int
     jacobi[:, idx[:-1], idx[1:]] = off
     jacobi[:, idx[1:], idx[:-1]] = off
     values, vectors = np.linalg.eigh(jacobi)
-    node_x = centre[big][:, None] + half[big][:, None] * np.clip(values, -1.0, 1.0)
+    node_x = (layout.centre[big][:, None]
+              + layout.half[big][:, None] * np.clip(values, -1.0, 1.0))
     node_w = total[:, None] * vectors[:, 0, :] ** 2
     # assemble in order: the kept intervals of small bins, the nodes of the others
+    keep = layout.keep
     point_bin = np.concatenate([bin_of[keep], np.repeat(big, nodes)])
     point_x = np.concatenate([x[keep], node_x.ravel()])
     point_w = np.concatenate([w[keep], node_w.ravel()])
@@ -98,21 +128,23 @@ def gauss_points(x: np.ndarray, w: np.ndarray, starts: np.ndarray, *, nodes: int
     return point_x[order], point_w[order]
 
 
-def compressed_sums(isi: np.ndarray, weights: np.ndarray, *, ratio: float = BIN_RATIO,
+def compressed_sums(isi: np.ndarray, weights: np.ndarray, *, layout: BinLayout | None = None,
                     plain: tuple[np.ndarray, np.ndarray] | None = None):
     """Points and weights for the likelihood's two kinds of sums over sorted intervals ``isi``:
-    ``(x_D, w_D)`` for sums weighted by the interval weights and ``(x_L, w_L)`` for plain sums.
-    Intervals below twice the shortest stay as they are. ``plain``: the plain-sum points of
-    the same intervals, already known (they do not depend on the weights)."""
+    ``(x_D, w_D)`` for sums weighted by the interval weights and ``(x_L, w_L)`` for plain sums,
+    and the bin layout used. Intervals below twice the shortest stay as they are. ``layout``
+    and ``plain``: the bin layout and the plain-sum points of the same intervals, already known
+    (neither depends on the weights)."""
     if len(isi) == 0 or not isi[0] > 0:
-        return (isi, weights), (isi, np.ones_like(isi))
-    first, starts = bin_starts(isi, exact_below=2.0 * isi[0], ratio=ratio)
+        return (isi, weights), (isi, np.ones_like(isi)), None
+    layout = BinLayout.of(isi) if layout is None else layout
+    first = layout.first
     head, tail = isi[:first], isi[first:]
-    dx, dw = gauss_points(tail, weights[first:], starts)
+    dx, dw = gauss_points(tail, weights[first:], layout)
     d_set = (np.concatenate([head, dx]), np.concatenate([weights[:first], dw]))
     if np.all(weights == 1.0):
-        return d_set, d_set
-    if plain is not None:
-        return d_set, plain
-    lx, lw = gauss_points(tail, np.ones_like(tail), starts)
-    return d_set, (np.concatenate([head, lx]), np.concatenate([np.ones(first), lw]))
+        return d_set, d_set, layout
+    if plain is None:
+        lx, lw = gauss_points(tail, np.ones_like(tail), layout)
+        plain = (np.concatenate([head, lx]), np.concatenate([np.ones(first), lw]))
+    return d_set, plain, layout

@@ -31,7 +31,8 @@ def kernel_rate(times: np.ndarray, *, span_s: tuple[float, float], bandwidth_s: 
 
 
 def interval_weights(times: np.ndarray, *, span_s: tuple[float, float], bandwidth_s: float,
-                     tau_s: float | None = None, dead_time_s: float = 0.0):
+                     tau_s: float | None = None, dead_time_s: float = 0.0,
+                     smoothed: tuple[np.ndarray, np.ndarray] | None = None):
     """Relative slow rate during each interval and during the censored last interval.
 
     The rate is read at each interval's midpoint and held constant within the interval
@@ -42,11 +43,15 @@ def interval_weights(times: np.ndarray, *, span_s: tuple[float, float], bandwidt
     rate of the exponential-recovery model with that ``tau_s`` and ``dead_time_s``: refractoriness
     compresses output-rate changes, and the multiplicative model modulates the free rate.
 
+    ``smoothed``: the :func:`kernel_rate` of the same train, when already computed (it does
+    not depend on ``tau_s`` or ``dead_time_s``).
+
     Returns
     -------
     weights, censored_weight : ndarray, float
     """
-    grid, rate = kernel_rate(times, span_s=span_s, bandwidth_s=bandwidth_s)
+    grid, rate = (kernel_rate(times, span_s=span_s, bandwidth_s=bandwidth_s)
+                  if smoothed is None else smoothed)
     floor = max(rate.max() * 1e-3, 1e-9)
     rate = np.maximum(rate, floor)
     if tau_s is not None:

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import logging
+import multiprocessing
 from dataclasses import asdict
 
 import numpy as np
@@ -72,7 +73,8 @@ def unit_recovery_rows(unit: str, times: np.ndarray, *, span_s: tuple[float, flo
             kinds.append(("slow_rate_modulated", "exp_recovery"))
         return [dict(_row(unit, Fit(m, note=note), None, k), n_intervals=len(isi))
                 for k, m in kinds]
-    iv = Intervals.build(isi, censored=span_s[1] - times[-1])
+    order = np.argsort(isi)  # ties in any order: the fits' sums do not depend on it
+    iv = Intervals.build(isi, censored=span_s[1] - times[-1], order=order)
     fits = fit_all(iv, with_interval=settings.tau_interval)
     rows = [_row(unit, f, iv, "stationary") for f in fits]
     by_model = {f.model: f for f in fits}
@@ -84,19 +86,56 @@ def unit_recovery_rows(unit: str, times: np.ndarray, *, span_s: tuple[float, flo
     if settings.modulated_fit:
         fit, weighted = fit_exp_recovery_modulated(
             times, span_s=span_s, bandwidth_s=settings.slow_rate_bandwidth_s,
-            with_interval=settings.modulated_tau_interval)
+            with_interval=settings.modulated_tau_interval, order=order, same_intervals=iv)
         rows.append(_row(unit, fit, weighted, "slow_rate_modulated"))
     return rows
 
 
-def recovery_table(spikes: SpikeArrays, *, span_s: tuple[float, float],
-                   settings: RecoverySettings) -> pd.DataFrame:
-    """Fit every unit of a session (a loop over units; each fit is vectorised over intervals)."""
-    bounds = spikes.bounds()
+#: below this many spikes a session's units are fitted in one process (starting workers would
+#: cost more than it saves)
+PARALLEL_MIN_SPIKES = 1_000_000
+#: the units handed to a worker at a time
+UNITS_PER_TASK = 8
+
+#: the session being fitted, read by forked workers (inherited memory, not copied per task)
+_SESSION: dict = {}
+
+
+def _fit_units(first: int, stop: int) -> list[dict]:
+    spikes, bounds = _SESSION["spikes"], _SESSION["bounds"]
     rows = []
-    for k, unit in enumerate(spikes.labels):
-        rows.extend(unit_recovery_rows(str(unit), spikes.times[bounds[k]:bounds[k + 1]],
-                                       span_s=span_s, settings=settings))
+    for k in range(first, stop):
+        rows.extend(unit_recovery_rows(str(spikes.labels[k]),
+                                       spikes.times[bounds[k]:bounds[k + 1]],
+                                       span_s=_SESSION["span_s"], settings=_SESSION["settings"]))
+    return rows
+
+
+def _fit_units_task(task: tuple[int, int]) -> list[dict]:
+    return _fit_units(*task)
+
+
+def recovery_table(spikes: SpikeArrays, *, span_s: tuple[float, float],
+                   settings: RecoverySettings, workers: int = 1) -> pd.DataFrame:
+    """Fit every unit of a session (each fit is vectorised over intervals).
+
+    With ``workers > 1`` and at least ``PARALLEL_MIN_SPIKES`` spikes the units are shared out
+    over that many forked processes, ``UNITS_PER_TASK`` at a time, and the rows gathered in
+    unit order: the table is the same whatever the number of workers (each unit's fit depends
+    on its own spikes only).
+    """
+    _SESSION.update(spikes=spikes, bounds=spikes.bounds(), span_s=span_s, settings=settings)
+    try:
+        n = spikes.n_units
+        if workers > 1 and n > 1 and len(spikes.times) >= PARALLEL_MIN_SPIKES:
+            tasks = [(k, min(k + UNITS_PER_TASK, n)) for k in range(0, n, UNITS_PER_TASK)]
+            with multiprocessing.get_context("fork").Pool(min(workers, len(tasks))) as pool:
+                rows = [row for part in pool.map(_fit_units_task, tasks, chunksize=1)
+                        for row in part]
+        else:
+            rows = _fit_units(0, n)
+    finally:
+        _SESSION.clear()
     if not rows:
         return pd.DataFrame({c: pd.Series(dtype=object) for c in COLUMNS})
     table = pd.DataFrame(rows)[COLUMNS]
@@ -107,11 +146,12 @@ def recovery_table(spikes: SpikeArrays, *, span_s: tuple[float, float],
 
 
 def run_session_recovery(*, session: str, spikes_path, output: str, settings: RecoverySettings,
-                         span: tuple[float, float] | None = None) -> None:
-    """Fit every unit of a session and write ``recovery.parquet`` atomically."""
+                         span: tuple[float, float] | None = None, workers: int = 1) -> None:
+    """Fit every unit of a session (over ``workers`` processes) and write ``recovery.parquet``
+    atomically."""
     spikes = load_spikes(spikes_path, session=session)
     span = recording_span(spikes, span)
-    table = recovery_table(spikes, span_s=span, settings=settings)
+    table = recovery_table(spikes, span_s=span, settings=settings, workers=workers)
     table.insert(0, "session", session)
     write_parquet_atomic(frame_to_arrow(table), output,
                          metadata={"session": session, "settings": asdict(settings),
