@@ -55,7 +55,12 @@ localrules:
 rule all:
     input:
         [LAYOUT.session_table(s, t) for s in SESSIONS for t in SESSION_TABLES],
-        [LAYOUT.recovery_figure(s, fmt) for s in SESSIONS for fmt in FIGURE_FORMATS],
+        [
+            LAYOUT.recovery_figure(s, fmt)
+            for s in SESSIONS
+            for fmt in FIGURE_FORMATS
+            if config["figures"]["session_recovery"]
+        ],
         [LAYOUT.cohort_figure(f, fmt) for f in COHORT_FIGURES for fmt in FIGURE_FORMATS],
         LAYOUT.datapackage(),
         [LAYOUT.report_page(name) for name in REPORT_PAGES],

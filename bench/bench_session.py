@@ -4,9 +4,9 @@ One session of 400 units x 1 h (~22 million spikes, CSV, 2,000 trials of two con
 goes through Snakemake with the default config, every rule included (ingest, metrics,
 time course, selection, recovery fits with the tau interval and the slow-rate-modulated fit,
 shared variability, the recovery figure, cohort tables, statistics, figures, hand-off).
-Prints the wall time, each job's seconds and peak memory (max RSS, from Snakemake's benchmark
-files) and the peak memory against the size of the session's spike arrays (8-byte times and
-4-byte unit codes per spike).
+Prints the wall time, each job's seconds and peak memory (max RSS and max PSS, from
+Snakemake's benchmark files), and the peak PSS against the size of the session's spike arrays
+(8-byte times and 4-byte unit codes per spike).
 
 Run: .venv/bin/python bench/bench_session.py [--units 400] [--hours 1] [--cores 2]
 """
@@ -54,10 +54,14 @@ def main():
     rows = []
     for path in sorted((work / "out" / "benchmarks").rglob("*.tsv")):
         bench = pd.read_csv(path, sep="\t")
-        rows.append((path.stem, float(bench["s"].iloc[0]), float(bench["max_rss"].iloc[0])))
-    print(f"{'job':<24} {'seconds':>8} {'max RSS (MB)':>13} {'x spike arrays':>15}")
-    for name, seconds, rss in sorted(rows, key=lambda r: -r[1]):
-        print(f"{name:<24} {seconds:8.1f} {rss:13.0f} {rss / arrays_mb:15.2f}")
+        rows.append((path.stem, float(bench["s"].iloc[0]), float(bench["max_rss"].iloc[0]),
+                     float(bench["max_pss"].iloc[0])))
+    # RSS counts pages shared between a job's processes (its forked workers) once per
+    # process; PSS splits each shared page between its sharers, so it sums to the memory used
+    print(f"{'job':<24} {'seconds':>8} {'max RSS MB':>11} {'max PSS MB':>11} "
+          f"{'PSS x spike arrays':>19}")
+    for name, seconds, rss, pss in sorted(rows, key=lambda r: -r[1]):
+        print(f"{name:<24} {seconds:8.1f} {rss:11.0f} {pss:11.0f} {pss / arrays_mb:19.2f}")
     print(f"spike arrays: {arrays_mb:.0f} MB")
 
 

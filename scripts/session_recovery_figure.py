@@ -5,9 +5,7 @@ from pathlib import Path
 
 sys.path.insert(0, str(Path(snakemake.scriptdir).parent / "src"))  # noqa: F821
 
-from spikevar.base.settings import settings_from  # noqa: E402
 from spikevar.figures.recovery import draw_session_recovery  # noqa: E402
-from spikevar.figures.settings import FigureSettings  # noqa: E402
 from spikevar.pipeline.jobs import rule_job  # noqa: E402
 
 with rule_job(snakemake, step="recovery_figure") as sm:  # noqa: F821
@@ -16,6 +14,5 @@ with rule_job(snakemake, step="recovery_figure") as sm:  # noqa: F821
         spikes_path=sm.input.spikes,
         recovery_path=sm.input.recovery,
         output=sm.output.png,
-        max_units=settings_from(FigureSettings, sm.params.figures,
-                                section="figures").max_units_per_session,
+        max_units=int(sm.params.max_units),  # figures.max_units_per_session (schema-checked)
     )

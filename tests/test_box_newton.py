@@ -44,3 +44,20 @@ def test_steps_stay_clear_of_an_open_upper_bound():
     res = minimise_in_box(fun, [0.0], [0.0], [1.0 - 1e-9], open_upper=[True])
     assert res.success and res.x[0] == pytest.approx(2 / 3, abs=1e-9)
     assert res.evaluations < 12
+
+
+def test_badly_scaled_variables_converge_in_a_few_steps():
+    # a positive-definite quadratic whose curvatures are 1e9 apart (as the recovery
+    # likelihood's are when the dead time nears the shortest interval): Newton's method is
+    # exact in one step; a test for definiteness relative to the largest curvature would
+    # shift the small one and crawl
+    hess = np.array([[0.4, 70.0], [70.0, 5e9]])
+    centre = np.array([1.0, 2.0])
+
+    def fun(x):
+        dx = x - centre
+        return 0.5 * dx @ hess @ dx, hess @ dx, hess
+
+    res = minimise_in_box(fun, [-3.0, 2.0001], [-10.0, -10.0], [10.0, 10.0])
+    assert res.success and res.evaluations <= 4
+    np.testing.assert_allclose(res.x, centre, atol=1e-9)

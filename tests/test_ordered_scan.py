@@ -127,3 +127,18 @@ def test_written_table_reads_back_as_plain_strings_with_metadata(tmp_path):
     umask = os.umask(0)
     os.umask(umask)
     assert stat.S_IMODE(path.stat().st_mode) == 0o666 & ~umask
+
+
+def test_loading_some_units_reads_only_their_spikes_with_the_session_labels(tmp_path):
+    # the per-session figure reads only the units it draws; a normalised table (sorted by
+    # unit in the one unit order, then time) written in row groups of two
+    path = tmp_path / "spikes.parquet"
+    pq.write_table(pa.table({"unit": ["2", "2", "2", "7", "10", "10"],
+                             "time_s": [0.1, 0.3, 0.9, 0.2, 0.5, 0.6]}), path, row_group_size=2)
+    every = load_spikes(path)
+    some = load_spikes(path, units=["2", "10"])
+    assert some.labels.tolist() == every.labels.tolist() == ["2", "7", "10"]
+    b = some.bounds()
+    assert some.times[b[0]:b[1]].tolist() == [0.1, 0.3, 0.9]
+    assert b[2] - b[1] == 0  # unit 7 was not read
+    assert some.times[b[2]:b[3]].tolist() == [0.5, 0.6]

@@ -227,18 +227,18 @@ def test_large_sample_ks_pvalue_is_close_to_the_exact_one():
 def test_tau_interval_ends_sit_on_the_95_percent_level():
     # the profile-likelihood interval (Venzon & Moolgavkar 1988, Appl Stat 37:87): at each end
     # the log-likelihood maximised over the other parameters is 1.92 below its maximum
-    from spikevar.recovery.fit import CHI2_95_HALF, _profile_over_d
+    from spikevar.recovery.fit import CHI2_95_HALF, profile_over_d
 
     for seed in range(4):
         iv, _ = intervals(simulate.ExpRecoveryISI(30.0, 0.006 + 0.004 * seed, 0.001), 120, seed)
         fit = fit_exp_recovery(iv)
         for end in fit.tau_ci:
-            level, _, _ = _profile_over_d(iv, float(np.log(end)), 0.5)
+            level, _, _ = profile_over_d(iv, float(np.log(end)), 0.5)
             assert level == pytest.approx(fit.log_likelihood - CHI2_95_HALF, abs=1e-4)
         # and the profile is higher everywhere inside
         inside = np.exp(np.linspace(np.log(fit.tau_ci[0]), np.log(fit.tau_ci[1]), 7)[1:-1])
         for tau in inside:
-            level, _, _ = _profile_over_d(iv, float(np.log(tau)), 0.5)
+            level, _, _ = profile_over_d(iv, float(np.log(tau)), 0.5)
             assert level > fit.log_likelihood - CHI2_95_HALF
 
 

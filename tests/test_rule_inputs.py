@@ -2,8 +2,17 @@
 
 import pandas as pd
 
-from spikevar.base.layout import NORMALISED_TABLES, ResultsLayout
-from spikevar.pipeline.rule_inputs import cohort_statistics_params, handoff_normalised_inputs
+from spikevar.base.layout import (
+    NORMALISED_TABLES,
+    RECOVERY_FIGURE_CATEGORY,
+    REPORT_CATEGORIES,
+    ResultsLayout,
+)
+from spikevar.pipeline.rule_inputs import (
+    cohort_statistics_params,
+    handoff_normalised_inputs,
+    report_categories,
+)
 
 
 def _sheet(labels):
@@ -35,3 +44,11 @@ def test_statistics_params_carry_what_the_rules_read_and_track_the_code():
     without = cohort_statistics_params(config, "population.run", bootstrap=False)
     assert "bootstrap" not in without
     assert without["code"] != params["code"]  # a different module, a different fingerprint
+
+
+def test_report_lists_the_recovery_figure_category_only_when_they_are_drawn():
+    every = [name for name, _ in REPORT_CATEGORIES]
+    assert report_categories({"figures": {"session_recovery": True}}) == every
+    left_out = report_categories({"figures": {"session_recovery": False}})
+    assert RECOVERY_FIGURE_CATEGORY in every and RECOVERY_FIGURE_CATEGORY not in left_out
+    assert len(left_out) == len(every) - 1

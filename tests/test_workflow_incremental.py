@@ -236,3 +236,18 @@ def test_changing_the_inclusion_rules_reruns_the_selection_and_what_reads_it(fin
     summary = pd.read_parquet(work / "out" / "cohort" / "group_summary.parquet")
     cv = summary[summary["metric"] == "isi_cv"].set_index("group")["n_units"]
     assert cv.sum() == int((~slow & units["isi_cv"].notna()).sum())
+
+
+def test_session_recovery_figures_can_be_left_out_with_the_cohort_figures_kept(finished):
+    # config figures.session_recovery: false plans no per-session figure on a new run, and
+    # the cohort figures and report pages are still made
+    work, sheet = finished
+    fresh = work.parent / "fresh"
+    fresh.mkdir()
+    shutil.copytree(work / "cohort", fresh / "cohort")
+    override = fresh / "no_session_figures.yaml"
+    override.write_text("figures:\n  session_recovery: false\n")
+    jobs = rules_of(planned_jobs(fresh, sheet, "--configfile",
+                                 str(REPO / "config" / "config.yaml"), str(override)))
+    assert "session_recovery_figure" not in jobs
+    assert {"session_recovery", "cohort_figures", "report_pages", "handoff"} <= jobs

@@ -4,6 +4,7 @@ from spikevar.base.layout import (
     COHORT_DATASETS,
     COHORT_FIGURES,
     DEFAULT_FIGURE_CATEGORY,
+    RECOVERY_FIGURE_CATEGORY,
     FIGURE_CATEGORY,
     FIGURE_FORMATS,
     METRIC_TABLES,
@@ -32,6 +33,7 @@ from spikevar.pipeline.rule_inputs import (
     declared_span,
     has_unit_labels,
     primary_alignment,
+    report_categories,
     sheet_records,
 )
 

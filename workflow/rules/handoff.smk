@@ -51,7 +51,7 @@ rule report_pages:
     params:
         sessions=SESSIONS,
         alignment=primary_alignment(config),
-        categories=[name for name, _ in REPORT_CATEGORIES],
+        categories=report_categories(config),
         code=code_fingerprint("cohort.report_pages", "base.layout"),
     log:
         **LAYOUT.cohort_logs("report_pages"),

@@ -34,12 +34,12 @@ rule session_recovery_figure:
         png=report(
             LAYOUT.recovery_figure("{session}", "png"),
             caption="../report/session_recovery.rst",
-            category="Recovery fits by session",
+            category=RECOVERY_FIGURE_CATEGORY,
             subcategory="{session}",
         ),
         svg=LAYOUT.recovery_figure("{session}", "svg"),
     params:
-        figures=config["figures"],
+        max_units=config["figures"]["max_units_per_session"],
         code=code_fingerprint("figures.recovery", "figures.settings", "base.settings"),
     log:
         **LAYOUT.session_logs("{session}", "recovery_figure"),

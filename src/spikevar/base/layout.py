@@ -62,6 +62,8 @@ REPORT_CATEGORIES = (
     ("Quality control", "violations, contamination, units left out and why: look here first"),
     ("Recovery fits by session", "ISI densities against the fitted models, goodness of fit"),
 )
+#: the category of the per-session recovery figures (left out when they are not drawn)
+RECOVERY_FIGURE_CATEGORY = "Recovery fits by session"
 #: the report category of each cohort figure
 FIGURE_CATEGORY = {"quality": "Quality control", "stability": "Quality control",
                    "r_sc_vs_rate": "Shared variability",

@@ -22,16 +22,20 @@ def draw_session_recovery(*, session: str, spikes_path, recovery_path, output,
     import matplotlib.pyplot as plt
 
     figure_style.apply_style()
-    spikes = load_spikes(spikes_path, session=session)
     fits = read_parquet_checked(recovery_path, session=session).to_pandas()
     fits = fits[fits["fit_kind"] == "stationary"]
-    labels = list(spikes.labels[:max_units])
+    # the recovery table lists every unit in the session's order: draw the first ones, and
+    # read only their spikes
+    labels = list(pd.unique(fits["unit"].astype(str)))[:max_units]
+    spikes = load_spikes(spikes_path, session=session, units=labels)
+    position = {str(label): k for k, label in enumerate(spikes.labels)}
     bounds = spikes.bounds()
     n = max(len(labels), 1)
     fig, axes = plt.subplots(n, 2, figsize=(WIDTH_IN, ROW_IN * n + 0.4), squeeze=False)
     _fixed_layout(fig, n)
     for k, unit in enumerate(labels):
-        isi = np.diff(spikes.times[bounds[k]:bounds[k + 1]])
+        j = position.get(unit)
+        isi = np.diff(spikes.times[bounds[j]:bounds[j + 1]]) if j is not None else np.zeros(0)
         dens_ax, ks_ax = axes[k]
         rows = fits[fits["unit"] == unit]
         dens_ax.set_title(f"{session} / unit {unit}: interval distribution", loc="left")

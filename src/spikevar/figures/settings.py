@@ -9,5 +9,7 @@ from dataclasses import dataclass
 class FigureSettings:
     """Config ``figures``."""
 
+    #: draw the per-session recovery figure (false: not drawn; the cohort figures still are)
+    session_recovery: bool = True
     #: units drawn per session in the recovery figure (the first ones by unit id)
     max_units_per_session: int = 12

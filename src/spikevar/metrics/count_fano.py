@@ -4,7 +4,6 @@ from __future__ import annotations
 
 import numpy as np
 import pandas as pd
-from scipy import stats
 
 from spikevar.base.spike_arrays import SpikeArrays
 from spikevar.metrics.segments import unit_blocks
@@ -16,12 +15,17 @@ REASON_ZERO_MEAN = "no spikes in any window"
 def poisson_fano_bounds(n_windows, *, level: float = 0.95):
     """Central interval of the Fano factor of ``n`` Poisson counts: ``(N-1) FF ~ chi2(N-1)``.
 
-    Eden & Kramer 2010, J Neurosci Methods 190:149. NaN for ``n < 2``.
+    Eden & Kramer 2010, J Neurosci Methods 190:149. NaN for ``n < 2``. The chi-square
+    quantile is ``2 P^-1(dof / 2, q)`` (scipy.special's inverse incomplete gamma, what
+    ``scipy.stats.chi2.ppf`` computes, without importing scipy.stats).
     """
+    from scipy.special import gammaincinv  # here, not at import: rules start faster
+
     n = np.asarray(n_windows, dtype=float)
     dof = np.where(n >= 2, n - 1, np.nan)
     alpha = 1 - level
-    return stats.chi2.ppf(alpha / 2, dof) / dof, stats.chi2.ppf(1 - alpha / 2, dof) / dof
+    return (2 * gammaincinv(dof / 2, alpha / 2) / dof,
+            2 * gammaincinv(dof / 2, 1 - alpha / 2) / dof)
 
 
 def window_index(times: np.ndarray, *, start_s: float, window_s: float) -> np.ndarray:

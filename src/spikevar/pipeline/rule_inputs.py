@@ -113,6 +113,16 @@ def primary_alignment(config: dict) -> str:
     return (list(config["alignments"]) or [config["columns"]["event_time"]])[0]
 
 
+def report_categories(config: dict) -> list[str]:
+    """The report's categories for the start page: every one in ``base.layout``, less "Recovery
+    fits by session" when config ``figures.session_recovery`` turns those figures off."""
+    from spikevar.base.layout import RECOVERY_FIGURE_CATEGORY, REPORT_CATEGORIES
+
+    drawn = config["figures"].get("session_recovery", True)
+    return [name for name, _ in REPORT_CATEGORIES
+            if drawn or name != RECOVERY_FIGURE_CATEGORY]
+
+
 def handoff_normalised_inputs(sheet: pd.DataFrame, layout, kinds) -> list[str]:
     """The normalised raw tables the hand-off lists in its manifest: every ``kinds`` table of
     every session, plus the normalised unit labels of sessions whose sheet row names a label

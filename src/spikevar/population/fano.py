@@ -33,7 +33,6 @@ from dataclasses import dataclass
 
 import numpy as np
 import pandas as pd
-from scipy import stats
 
 from spikevar.base.resampling import hierarchical_resample_indices
 from spikevar.population.settings import MeanMatchSettings
@@ -169,8 +168,10 @@ def few_cluster_interval(estimate: np.ndarray, replicates: np.ndarray,
         warnings.simplefilter("ignore", RuntimeWarning)  # all-NaN windows stay NaN
         sd = np.nanstd(replicates, axis=0, ddof=1)
     g = n_subjects.astype(float)[:, None]
+    from scipy.special import stdtrit  # Student t quantile (scipy.stats.t.ppf computes it)
+
     with np.errstate(invalid="ignore", divide="ignore"):
-        half = stats.t.ppf(0.975, np.maximum(g - 1, 1)) * np.sqrt(g / (g - 1)) * sd
+        half = stdtrit(np.maximum(g - 1, 1), 0.975) * np.sqrt(g / (g - 1)) * sd
     half = np.where(g > 1, half, np.nan)
     return estimate - half, estimate + half
 

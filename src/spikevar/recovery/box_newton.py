@@ -61,14 +61,21 @@ def _newton_step(grad, hess, free) -> np.ndarray:
         step[i] = -g / (h if h > 0 else abs(h) + 1.0)  # negative curvature: a damped step
         return step
     if len(idx) == 2:
-        a, b, c = float(hess[0, 0]), float(hess[0, 1]), float(hess[1, 1])
+        # in the variables scaled to unit curvature (Jacobi scaling) the test for a positive
+        # definite Hessian and the shift do not depend on how differently the two variables
+        # are scaled (here: curvatures 1e9 apart when d nears the shortest interval)
+        root_a = np.sqrt(max(abs(float(hess[0, 0])), 1e-300))
+        root_c = np.sqrt(max(abs(float(hess[1, 1])), 1e-300))
+        a, c = float(hess[0, 0]) / root_a**2, float(hess[1, 1]) / root_c**2
+        b = float(hess[0, 1]) / (root_a * root_c)
+        g0, g1 = float(grad[0]) / root_a, float(grad[1]) / root_c
         mean, half = 0.5 * (a + c), float(np.hypot(0.5 * (a - c), b))
         low, scale = mean - half, abs(mean) + half
         shift = 0.0 if low > 1e-10 * scale else 1e-6 * max(scale, 1e-300) - low
         a, c = a + shift, c + shift
         det = a * c - b * b
-        step[0] = -(c * grad[0] - b * grad[1]) / det
-        step[1] = -(a * grad[1] - b * grad[0]) / det
+        step[0] = -(c * g0 - b * g1) / det / root_a
+        step[1] = -(a * g1 - b * g0) / det / root_c
         return step
     if len(idx):
         raise ValueError("minimise_in_box handles one or two variables")
