@@ -24,6 +24,7 @@ import pandas as pd
 from scipy.special import chdtrc
 
 from spikevar.base.spike_arrays import SpikeArrays
+from spikevar.metrics.segments import unit_blocks
 from spikevar.metrics.settings import StabilitySettings
 
 #: expected spikes per block below which the chi-squared approximation is not trusted
@@ -57,33 +58,27 @@ def block_statistics(spikes: SpikeArrays, *, start_s: float, stop_s: float,
     lengths = np.diff(edges)
     if n_blocks < 1:
         return empty_blocks(), _untested(spikes.labels, "recording shorter than one block")
-    block = _block_of(spikes.times, edges)
-    cell = spikes.codes * np.int64(n_blocks) + block
     size = n_units * n_blocks
-    n_spikes = np.bincount(cell, minlength=size).astype(float)
-
-    # ISIs inside one block of one unit, and their block's mean (for phi and CV2)
-    same = (cell[1:] == cell[:-1])
-    isi = np.diff(spikes.times)[same]
-    isi_cell = cell[:-1][same]
-    n_isi = np.bincount(isi_cell, minlength=size).astype(float)
-    s1 = np.bincount(isi_cell, weights=isi, minlength=size)
-    s2 = np.bincount(isi_cell, weights=isi * isi, minlength=size)
+    sums = dict.fromkeys(("n_spikes", "n_isi", "s1", "s2", "n_pairs", "cv2_sum", "sub_s1",
+                          "sub_s2"), np.zeros(size))
+    offsets = spikes.bounds()
+    # units a few million spikes at a time (a cell never spans two units, so every cell's
+    # sums come whole from one pass): memory bounded whatever the session's length
+    for first, stop in unit_blocks(offsets):
+        lo, hi = offsets[first], offsets[stop]
+        part = _cell_sums(spikes.times[lo:hi], spikes.codes[lo:hi], edges=edges,
+                          size=size, subwindow_s=settings.subwindow_s)
+        sums = {key: sums[key] + part[key] for key in sums}
+    n_spikes, n_isi = sums["n_spikes"], sums["n_isi"]
     with np.errstate(invalid="ignore", divide="ignore"):
-        mean_isi = s1 / n_isi
-        var_isi = (s2 - n_isi * mean_isi**2) / (n_isi - 1)
+        mean_isi = sums["s1"] / n_isi
+        var_isi = (sums["s2"] - n_isi * mean_isi**2) / (n_isi - 1)
         cv_sq = var_isi / mean_isi**2
-    # CV2 of consecutive ISI pairs inside a block (Holt et al. 1996)
-    pair = same[1:] & same[:-1]
-    full_isi = np.diff(spikes.times)
-    a, b = full_isi[:-1][pair], full_isi[1:][pair]
-    pair_cell = cell[:-2][pair]
-    with np.errstate(invalid="ignore", divide="ignore"):
-        cv2_terms = 2.0 * np.abs(b - a) / (a + b)
-        n_pairs = np.bincount(pair_cell, minlength=size).astype(float)
-        cv2 = np.bincount(pair_cell, weights=np.nan_to_num(cv2_terms), minlength=size) / n_pairs
-    fano = _subwindow_fano(spikes, cell_of_block=block, edges=edges, n_blocks=n_blocks,
-                           subwindow_s=settings.subwindow_s)
+        cv2 = sums["cv2_sum"] / sums["n_pairs"]
+        mm = np.tile(np.floor(lengths / settings.subwindow_s + 1e-9), n_units)
+        mean = sums["sub_s1"] / mm
+        var = (sums["sub_s2"] - mm * mean**2) / (mm - 1)
+        fano = np.where((mm >= 2) & (mean > 0), var / mean, np.nan)
 
     unit_index = np.repeat(np.arange(n_units), n_blocks)
     block_index = np.tile(np.arange(n_blocks), n_units)
@@ -113,38 +108,42 @@ def empty_blocks() -> pd.DataFrame:
                                                                     "fano")}})
 
 
-def _subwindow_fano(spikes: SpikeArrays, *, cell_of_block: np.ndarray, edges: np.ndarray,
-                    n_blocks: int, subwindow_s: float) -> np.ndarray:
-    """Fano factor of counts in the whole sub-windows of each unit x block (NaN: < 2
-    sub-windows or no spike)."""
-    n_units = spikes.n_units
-    size = n_units * n_blocks
+def _cell_sums(times: np.ndarray, codes: np.ndarray, *, edges: np.ndarray, size: int,
+               subwindow_s: float) -> dict[str, np.ndarray]:
+    """Per unit x block cell (``code * n_blocks + block``) of the given spikes: spike count;
+    count, sum and sum of squares of the ISIs inside the cell; count and sum of the CV2 terms
+    of consecutive ISI pairs inside it (Holt et al. 1996); sum and sum of squares of the
+    counts in its whole sub-windows of ``subwindow_s``."""
+    n_blocks = len(edges) - 1
+    block = _block_of(times, edges)
+    cell = codes * np.int64(n_blocks) + block
+    out = {"n_spikes": np.bincount(cell, minlength=size).astype(float)}
+    isi = np.diff(times)
+    same = cell[1:] == cell[:-1]
+    inner, isi_cell = isi[same], cell[:-1][same]
+    out["n_isi"] = np.bincount(isi_cell, minlength=size).astype(float)
+    out["s1"] = np.bincount(isi_cell, weights=inner, minlength=size)
+    out["s2"] = np.bincount(isi_cell, weights=inner * inner, minlength=size)
+    pair = same[1:] & same[:-1]
+    a, b = isi[:-1][pair], isi[1:][pair]
+    pair_cell = cell[:-2][pair]
+    with np.errstate(invalid="ignore", divide="ignore"):
+        cv2_terms = 2.0 * np.abs(b - a) / (a + b)
+    out["n_pairs"] = np.bincount(pair_cell, minlength=size).astype(float)
+    out["cv2_sum"] = np.bincount(pair_cell, weights=np.nan_to_num(cv2_terms), minlength=size)
+    # counts in whole sub-windows: runs of equal (cell, sub-window) keys, spikes being sorted
     per_block = np.floor(np.diff(edges) / subwindow_s + 1e-9).astype(np.int64)
-    first_sub = np.concatenate([[0], np.cumsum(per_block)])
-    offset_in_block = spikes.times - edges[cell_of_block]
-    sub = np.floor(offset_in_block / subwindow_s + 1e-12).astype(np.int64)
-    inside = sub < per_block[cell_of_block]
-    global_sub = first_sub[cell_of_block] + sub
-    n_sub_total = int(first_sub[-1])
-    key = (spikes.codes * np.int64(max(n_sub_total, 1)) + global_sub)[inside]
-    m = per_block.astype(float)
-    s1 = np.zeros(size)
-    s2 = np.zeros(size)
+    sub = np.floor((times - edges[block]) / subwindow_s + 1e-12).astype(np.int64)
+    inside = sub < per_block[block]
+    key = (cell * np.int64(max(int(per_block.max()), 1)) + sub)[inside]
+    out["sub_s1"], out["sub_s2"] = np.zeros(size), np.zeros(size)
     if len(key):
         starts = np.flatnonzero(np.concatenate([[True], key[1:] != key[:-1]]))
         counts = np.diff(np.concatenate([starts, [len(key)]])).astype(float)
-        unit = key[starts] // max(n_sub_total, 1)
-        sub_of_run = key[starts] % max(n_sub_total, 1)
-        block_of_run = np.searchsorted(first_sub, sub_of_run, side="right") - 1
-        cell = unit * n_blocks + block_of_run
-        s1 = np.bincount(cell, weights=counts, minlength=size)
-        s2 = np.bincount(cell, weights=counts**2, minlength=size)
-    mm = np.tile(m, n_units)
-    with np.errstate(invalid="ignore", divide="ignore"):
-        mean = s1 / mm
-        var = (s2 - mm * mean**2) / (mm - 1)
-        fano = np.where((mm >= 2) & (mean > 0), var / mean, np.nan)
-    return fano
+        run_cell = cell[inside][starts]
+        out["sub_s1"] = np.bincount(run_cell, weights=counts, minlength=size)
+        out["sub_s2"] = np.bincount(run_cell, weights=counts**2, minlength=size)
+    return out
 
 
 def _drift_test(labels: np.ndarray, counts: np.ndarray, n_isi: np.ndarray, cv_sq: np.ndarray,
