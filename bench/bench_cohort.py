@@ -5,7 +5,11 @@ whole pipeline, and reports: full run time and time per job; the dry run of the 
 the rerun after one session's spike file changes (and its share of the full run); the peak
 memory (max RSS from Snakemake's benchmark files) of the cohort-assembly jobs.
 
+The per-session recovery figures are off (config figures.session_recovery: false, the setting
+the README recommends for large cohorts) unless --session-figures is given.
+
 Run: .venv/bin/python bench/bench_cohort.py [--sessions 200] [--units 100] [--duration 120]
+     [--session-figures]
 """
 
 import argparse
@@ -61,7 +65,7 @@ def job_seconds_by_rule(folder: Path) -> None:
         seconds.setdefault(path.stem, []).append(float(pd.read_csv(path, sep="\t")["s"].iloc[0]))
     total = sum(sum(v) for v in seconds.values())
     print(f"job seconds by rule (sum {total:.0f} s; the last run's value for rerun jobs):")
-    for rule, values in sorted(seconds.items(), key=lambda kv: -sum(kv[1]))[:8]:
+    for rule, values in sorted(seconds.items(), key=lambda kv: -sum(kv[1]))[:14]:
         print(f"  {rule:<26} {len(values):4d} jobs {sum(values):8.1f} s "
               f"({100 * sum(values) / total:4.1f}%), {np.mean(values):.2f} s per job")
 
@@ -72,6 +76,8 @@ def main():
     parser.add_argument("--units", type=int, default=100)
     parser.add_argument("--duration", type=float, default=120.0)
     parser.add_argument("--work", default="bench/out/cohort")
+    parser.add_argument("--session-figures", action="store_true",
+                        help="also draw the per-session recovery figures (config default)")
     args = parser.parse_args()
     work = Path(args.work).resolve()
     if work.exists():
@@ -79,11 +85,15 @@ def main():
         shutil.rmtree(work)
     build(work / "cohort", args.sessions, args.units, args.duration)
     # the profile-likelihood interval is switched off: this measures the workflow, not the fits
-    (work / "override.yaml").write_text("recovery:\n  tau_interval: false\n")
-    n_jobs = args.sessions * 4 + 4 + 4
+    override = "recovery:\n  tau_interval: false\n"
+    if not args.session_figures:  # the large-cohort setting the README recommends
+        override += "figures:\n  session_recovery: false\n"
+    (work / "override.yaml").write_text(override)
     full = snakemake(work)
-    print(f"cohort: {args.sessions} sessions x {args.units} units, {args.duration:.0f} s each")
-    print(f"full run: {full:.1f} s for about {n_jobs} jobs on {os.cpu_count()} cores "
+    n_jobs = len(list((work / "out" / "benchmarks").rglob("*.tsv")))
+    print(f"cohort: {args.sessions} sessions x {args.units} units, {args.duration:.0f} s each; "
+          f"per-session recovery figures {'on' if args.session_figures else 'off'}")
+    print(f"full run: {full:.1f} s for {n_jobs} jobs on {os.cpu_count()} cores "
           f"({full / n_jobs * (os.cpu_count() or 2):.2f} core-seconds per job)")
     dry = snakemake(work, "-n")
     print(f"dry run of the finished cohort: {dry:.2f} s")

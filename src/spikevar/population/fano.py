@@ -231,17 +231,22 @@ def population_fano_table(timecourse: pd.DataFrame, *, settings: MeanMatchSettin
     edges = bin_edges([s.mean for s in series], settings.n_bins)
     point = estimate(series, scopes, edges, n_repeats=settings.n_repeats, rng=rng)
 
-    # hierarchical resamples: one draw of units per group, shared by its conditions
+    # hierarchical resamples: one draw of units per group, shared by its conditions; none
+    # when no group has two subjects (no interval is given from one subject)
+    n_subjects = np.array([groups[s.group]["subject"].nunique() for s in series])
+    n_boot = settings.n_boot if (n_subjects >= 2).any() else 0
     draws = {}
     for group, units in groups.items():
+        if n_boot == 0:
+            continue
         rows, rep = hierarchical_resample_indices(units["subject"], units["session"],
-                                                  n_boot=settings.n_boot, rng=rng,
+                                                  n_boot=n_boot, rng=rng,
                                                   levels=("subject",))
-        cuts = np.searchsorted(rep, np.arange(1, settings.n_boot))
+        cuts = np.searchsorted(rep, np.arange(1, n_boot))
         draws[group] = np.split(rows, cuts)
-    boot = {k: np.full((settings.n_boot, len(series), len(times)), np.nan)
+    boot = {k: np.full((max(n_boot, 2), len(series), len(times)), np.nan)
             for k in ("regression", "matched")}
-    for b in range(settings.n_boot):
+    for b in range(n_boot):
         resampled = [Series(s.group, s.condition, s.alignment, s.mean[draws[s.group][b]],
                             s.var[draws[s.group][b]], s.n_trials[draws[s.group][b]])
                      for s in series]
@@ -249,7 +254,6 @@ def population_fano_table(timecourse: pd.DataFrame, *, settings: MeanMatchSettin
                                             n_repeats=settings.n_repeats, rng=rng)):
             boot["regression"][b, k] = result["regression"]
             boot["matched"][b, k] = result["matched"]
-    n_subjects = np.array([groups[s.group]["subject"].nunique() for s in series])
     reg = np.stack([r["regression"] for r in point])
     matched = np.stack([r["matched"] for r in point])
     reg_lo, reg_hi = few_cluster_interval(reg, boot["regression"], n_subjects)
