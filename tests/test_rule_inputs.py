@@ -10,7 +10,9 @@ from spikevar.base.layout import (
 )
 from spikevar.pipeline.rule_inputs import (
     cohort_statistics_params,
+    RECOVERY_PARALLEL_MB,
     handoff_normalised_inputs,
+    recovery_threads,
     report_categories,
 )
 
@@ -52,3 +54,11 @@ def test_report_lists_the_recovery_figure_category_only_when_they_are_drawn():
     left_out = report_categories({"figures": {"session_recovery": False}})
     assert RECOVERY_FIGURE_CATEGORY in every and RECOVERY_FIGURE_CATEGORY not in left_out
     assert len(left_out) == len(every) - 1
+
+
+def test_only_large_sessions_take_two_threads_for_their_fits():
+    from spikevar.recovery.table import PARALLEL_MIN_SPIKES
+
+    # the spike table holds about 8 bytes per spike: the same size as the table's own limit
+    assert RECOVERY_PARALLEL_MB * 1e6 / 8 == PARALLEL_MIN_SPIKES
+    assert recovery_threads(1.0) == 1 and recovery_threads(180.0) == 2

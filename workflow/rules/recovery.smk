@@ -14,7 +14,7 @@ rule session_recovery:
         **LAYOUT.session_logs("{session}", "recovery"),
     benchmark:
         LAYOUT.session_benchmark("{session}", "session_recovery")
-    threads: 2
+    threads: lambda wildcards, input: recovery_threads(input.size_mb)
     conda:
         "../envs/spikevar.yaml"
     group:

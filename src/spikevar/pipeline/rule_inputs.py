@@ -113,6 +113,18 @@ def primary_alignment(config: dict) -> str:
     return (list(config["alignments"]) or [config["columns"]["event_time"]])[0]
 
 
+#: spike tables at least this large (MB; about 8 bytes per spike) are fitted over two worker
+#: processes (``recovery.table.PARALLEL_MIN_SPIKES``: one million spikes)
+RECOVERY_PARALLEL_MB = 8.0
+
+
+def recovery_threads(spikes_mb: float) -> int:
+    """Threads of rule session_recovery: 2 for a session large enough to share its units over
+    two workers, else 1 (a 2-thread job holds both cores of a laptop: 200 small sessions
+    fitted on 2 threads each ran one at a time)."""
+    return 2 if spikes_mb >= RECOVERY_PARALLEL_MB else 1
+
+
 def report_categories(config: dict) -> list[str]:
     """The report's categories for the start page: every one in ``base.layout``, less "Recovery
     fits by session" when config ``figures.session_recovery`` turns those figures off."""

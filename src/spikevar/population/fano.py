@@ -60,12 +60,27 @@ def weighted_slope(mean: np.ndarray, var: np.ndarray, n_trials: np.ndarray,
 
     Units with a zero mean count carry no information on the ratio and are left out.
     """
+    w, w_ratio = _slope_terms(mean, var, n_trials)
+    return _slope_of(w, w_ratio, axis=axis)
+
+
+def _slope_terms(mean, var, n_trials):
+    """The weights ``n_trials - 1`` and weight x (var / mean) of the weighted slope, 0 where
+    a unit is left out."""
     ok = np.isfinite(mean) & np.isfinite(var) & (mean > 0) & (n_trials > 1)
     w = np.where(ok, n_trials - 1.0, 0.0)
     with np.errstate(invalid="ignore", divide="ignore"):
         ratio = np.where(ok, var / np.where(ok, mean, 1.0), 0.0)
-        total = w.sum(axis=axis)
-        return np.where(total > 0, (w * ratio).sum(axis=axis) / total, np.nan)
+    return w, w * ratio
+
+
+def _slope_of(w, w_ratio, *, axis: int = 0, keep=None):
+    """The weighted slope from its terms, over the units in ``keep`` (all when None)."""
+    if keep is not None:
+        w, w_ratio = np.where(keep, w, 0.0), np.where(keep, w_ratio, 0.0)
+    total = w.sum(axis=axis)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        return np.where(total > 0, w_ratio.sum(axis=axis) / total, np.nan)
 
 
 def mean_match_mask(bins: np.ndarray, hist: np.ndarray, common: np.ndarray,
@@ -74,19 +89,24 @@ def mean_match_mask(bins: np.ndarray, hist: np.ndarray, common: np.ndarray,
 
     ``bins``: (units, windows) bin index, -1 for unusable; ``hist``: (windows, bins) counts,
     each at least ``common``. Within each (window, bin) the kept units are a uniformly random
-    subset: units are sorted by ``bin + U(0, 1)`` and the first ``common[bin]`` are kept.
+    subset: each unit gets the key ``bin + U(0, 1)``, and a unit is kept when its key is at
+    most the ``common[bin]``-th smallest key of its bin (the first ``common[bin]`` of the bin
+    in key order). One sort of the keys per window, no argsort and no scatter back.
     """
     n_units, n_win = bins.shape
+    u = rng.random((n_units, n_win))
+    usable = bins.T >= 0  # (windows, units): each window's keys contiguous for the sort
+    key = np.where(usable, bins.T + u.T, np.inf)
+    sorted_key = np.sort(key, axis=1)
     first = np.concatenate([np.zeros((n_win, 1), dtype=np.int64),
                             np.cumsum(hist, axis=1)[:, :-1]], axis=1)  # (windows, bins)
-    order = np.argsort(np.where(bins >= 0, bins + rng.random((n_units, n_win)), np.inf), axis=0)
-    sorted_bins = np.take_along_axis(bins, order, axis=0)
-    sorted_safe = np.maximum(sorted_bins, 0)
-    rank = np.arange(n_units)[:, None] - first[np.arange(n_win)[None, :], sorted_safe]
-    keep_sorted = (sorted_bins >= 0) & (rank < common[sorted_safe])
-    keep = np.zeros_like(keep_sorted)
-    np.put_along_axis(keep, order, keep_sorted, axis=0)
-    return keep
+    last = np.clip(first + common[None, :] - 1, 0, max(n_units - 1, 0))
+    threshold = np.where(common[None, :] > 0,
+                         np.take_along_axis(sorted_key, last, axis=1) if n_units else -np.inf,
+                         -np.inf)
+    bin_safe = np.maximum(bins.T, 0)
+    keep = usable & (key <= np.take_along_axis(threshold, bin_safe, axis=1))
+    return keep.T
 
 
 def bin_edges(means: list[np.ndarray], n_bins: int) -> np.ndarray:
@@ -138,10 +158,11 @@ def estimate(series: list[Series], scopes: list[int], edges: np.ndarray, *, n_re
     out = []
     for s, b, hist, scope in zip(series, bins, hists, scopes, strict=True):
         slopes, kept_means = [], []
+        w, w_ratio = _slope_terms(s.mean, s.var, s.n_trials)  # the same in every repeat
         for _ in range(n_repeats):
             keep = mean_match_mask(b, hist, common[scope], rng)
             kept_mean = np.where(keep, s.mean, np.nan)
-            slopes.append(weighted_slope(kept_mean, s.var, s.n_trials))
+            slopes.append(_slope_of(w, w_ratio, keep=keep))
             with warnings.catch_warnings():
                 warnings.simplefilter("ignore", RuntimeWarning)  # windows with none kept
                 kept_means.append(np.nanmean(kept_mean, axis=0))

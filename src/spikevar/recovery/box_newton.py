@@ -19,6 +19,8 @@ import numpy as np
 
 #: a variable this close to a bound (relative to the box's width) counts as being at it
 AT_BOUND = 1e-12
+#: the same for an open upper bound, which steps approach geometrically and never reach
+AT_OPEN_BOUND = 1e-8
 #: Armijo's sufficient-decrease constant
 ARMIJO = 1e-4
 #: relative size of the rounding in a value (sums of thousands of terms)
@@ -42,11 +44,13 @@ class BoxResult:
     evaluations: int
 
 
-def projected_gradient(x, grad, lower, upper) -> np.ndarray:
-    """The gradient with the components that push out of the box at an active bound set to 0."""
+def projected_gradient(x, grad, lower, upper, open_upper=None) -> np.ndarray:
+    """The gradient with the components that push out of the box at an active bound set to 0
+    (an open upper bound counts as reached within ``AT_OPEN_BOUND`` of the box's width)."""
     width = np.maximum(upper - lower, 1.0)
+    near = AT_BOUND if open_upper is None else np.where(open_upper, AT_OPEN_BOUND, AT_BOUND)
     at_lo = (x <= lower + AT_BOUND * width) & (grad > 0)
-    at_hi = (x >= upper - AT_BOUND * width) & (grad < 0)
+    at_hi = (x >= upper - near * width) & (grad < 0)
     return np.where(at_lo | at_hi, 0.0, grad)
 
 
@@ -115,12 +119,14 @@ def minimise_in_box(fun, x0, lower, upper, *, gtol: float = 1e-8, max_iterations
         return BoxResult(x, f, g, g, False, "not finite at the start", evaluations)
     message, success = "iteration limit reached", False
     for _ in range(max_iterations):
-        pg = projected_gradient(x, g, lower, upper)
+        pg = projected_gradient(x, g, lower, upper, open_upper)
         if np.max(np.abs(pg)) < gtol:
             message, success = "projected gradient below tolerance", True
             break
         step = _newton_step(g, h, pg != 0)
-        if float(g @ step) >= 0:  # cannot happen with a positive-definite shift; guard rounding
+        # not downhill cannot happen with a positive-definite shift (guards rounding); not
+        # finite where the curvature overflowed (intervals of denormal length)
+        if not np.all(np.isfinite(step)) or float(g @ step) >= 0:
             step = -pg
         step = _towards_open_bounds(x, step, upper, open_upper)
         if np.max(np.abs(np.clip(x + step, lower, upper) - x)) < STEP_TOL:
@@ -136,7 +142,8 @@ def minimise_in_box(fun, x0, lower, upper, *, gtol: float = 1e-8, max_iterations
                     # at the top the change in value is rounding: a full step that shrinks
                     # the gradient is progress
                     or (alpha == 1.0 and f_new <= f + ROUNDING * abs(f)
-                        and np.max(np.abs(projected_gradient(trial, g_new, lower, upper)))
+                        and np.max(np.abs(projected_gradient(trial, g_new, lower, upper,
+                                                             open_upper)))
                         < np.max(np.abs(pg)))):
                 accepted = True
                 break
@@ -146,5 +153,5 @@ def minimise_in_box(fun, x0, lower, upper, *, gtol: float = 1e-8, max_iterations
             success = bool(np.max(np.abs(pg)) < np.sqrt(gtol))
             break
         x, f, g, h = trial, f_new, g_new, h_new
-    pg = projected_gradient(x, g, lower, upper)
+    pg = projected_gradient(x, g, lower, upper, open_upper)
     return BoxResult(x, float(f), g, pg, success, message, evaluations)

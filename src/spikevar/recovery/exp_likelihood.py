@@ -54,7 +54,9 @@ def recovery_terms(iv, tau: float, d: float, *, second: bool = False):
         wl = iv.log_w[:kl]
     else:
         wl = iv.log_w[:k]
-    with np.errstate(divide="ignore", invalid="ignore"):
+    # intervals of denormal length (1e-300 s) overflow the curvature terms: the optimiser then
+    # takes a gradient step (recovery.box_newton), so the warning says nothing
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
         L = float((wl * np.log(q)).sum())
         a = e / q
         wa = wl * a
@@ -125,6 +127,7 @@ def objective_with_hessian(theta, iv):
     h_td = -n * (d2D[1] / D - dD[0] * dD[1] / D**2) + d2L[1]
     h_dd = -n * (d2D[2] / D - dD[1] ** 2 / D**2) + d2L[2]
     grad = np.array([g_tau * tau, g_d * m])
-    hess = np.array([[tau * tau * h_tt + tau * g_tau, tau * m * h_td],
-                     [tau * m * h_td, m * m * h_dd]])
+    with np.errstate(invalid="ignore", over="ignore"):  # the same denormal intervals
+        hess = np.array([[tau * tau * h_tt + tau * g_tau, tau * m * h_td],
+                         [tau * m * h_td, m * m * h_dd]])
     return -ll, -grad, -hess

@@ -165,12 +165,13 @@ def fit_exp_recovery(iv: Intervals, *, with_interval: bool = True) -> Fit:
     likelihood can have two maxima (``tau`` at its lower bound with ``d`` just under the
     shortest interval, and a short ``tau`` with a smaller ``d``); Newton's method then also
     starts in each and the best is kept. ``converged`` is True when the projected gradient
-    ends below ``PROJECTED_GRADIENT_TOL``. ``tau_at_bound`` is ``"lower"`` (10 us: the
-    dead-time limit) or ``"upper"`` (20 mean intervals: recovery slower than the data
-    resolve); both are converged fits whose tau is a bound, not a measurement, and group
-    summaries leave both out alike and count them. The 95% interval for ``tau`` is the
-    profile-likelihood interval (``d`` re-optimised at each ``tau``); an end that reaches a
-    bound is reported as 0 or inf. No interval is given at the upper bound.
+    ends below ``PROJECTED_GRADIENT_TOL`` or Newton's step below the variables' resolution.
+    ``tau_at_bound`` is ``"lower"`` (10 us: the dead-time limit) or ``"upper"`` (20 mean
+    intervals: recovery slower than the data resolve); both are converged fits whose tau is a
+    bound, not a measurement, and group summaries leave both out alike and count them. The
+    95% interval for ``tau`` is the profile-likelihood interval (``d`` re-optimised at each
+    ``tau``); an end that reaches a bound is reported as 0 or inf. No interval is given at the
+    upper bound.
     """
     if not iv.min_isi > 0:
         return Fit("exp_recovery", note="zero-length interval (duplicate spike times): the "
@@ -198,7 +199,9 @@ def fit_exp_recovery(iv: Intervals, *, with_interval: bool = True) -> Fit:
     ll = -res.fun
     D = exp_likelihood.recovery_terms(iv, tau, d)[0]
     worst = float(np.max(np.abs(res.projected_grad)))
-    converged = bool(np.isfinite(ll)) and worst < PROJECTED_GRADIENT_TOL
+    # or Newton's step is below the variables' resolution: where the curvature is huge (d next
+    # to the shortest interval) a gradient of 1e-3 moves d by less than rounding
+    converged = bool(np.isfinite(ll)) and (worst < PROJECTED_GRADIENT_TOL or res.success)
     note, at_bound = "", ""
     if res.x[0] >= upper[0] - 1e-6:
         at_bound, note = "upper", "tau at upper bound: recovery slower than the data resolve"
