@@ -57,17 +57,21 @@ def test_poisson_and_dead_time_closed_form_mles():
     assert dt.log_likelihood > p.log_likelihood
 
 
+def central_difference(part, theta, iv, j, eps=1e-6):
+    """Central difference in coordinate ``j`` of the objective's value (part 0) or gradient
+    (part 1)."""
+    step = np.zeros(2)
+    step[j] = eps
+    return (exp_recovery_objective(theta + step, iv)[part]
+            - exp_recovery_objective(theta - step, iv)[part]) / (2 * eps)
+
+
 def test_gradient_matches_finite_differences():
     iv, _ = intervals(simulate.ExpRecoveryISI(40.0, 0.008, 0.0015), 60, 2)
     theta = np.array([np.log(0.006), 0.4])
     _, grad = exp_recovery_objective(theta, iv)
-    eps = 1e-6
     for j in range(2):
-        step = np.zeros(2)
-        step[j] = eps
-        fd = (exp_recovery_objective(theta + step, iv)[0]
-              - exp_recovery_objective(theta - step, iv)[0]) / (2 * eps)
-        assert grad[j] == pytest.approx(fd, rel=1e-4)
+        assert grad[j] == pytest.approx(central_difference(0, theta, iv, j), rel=1e-4)
 
 
 @pytest.mark.parametrize("weighted", [False, True])
@@ -82,13 +86,9 @@ def test_hessian_matches_finite_differences_of_the_gradient(weighted):
         value, grad, hess = objective_with_hessian(theta, iv)
         assert value == pytest.approx(exp_recovery_objective(theta, iv)[0], rel=1e-12)
         np.testing.assert_allclose(grad, exp_recovery_objective(theta, iv)[1], rtol=1e-12)
-        eps = 1e-6
         for j in range(2):
-            step = np.zeros(2)
-            step[j] = eps
-            fd = (exp_recovery_objective(theta + step, iv)[1]
-                  - exp_recovery_objective(theta - step, iv)[1]) / (2 * eps)
-            np.testing.assert_allclose(hess[:, j], fd, rtol=1e-4, atol=1e-6 * np.abs(hess).max())
+            np.testing.assert_allclose(hess[:, j], central_difference(1, theta, iv, j),
+                                       rtol=1e-4, atol=1e-6 * np.abs(hess).max())
 
 
 def test_exp_recovery_unbiased_and_interval_coverage():

@@ -9,8 +9,8 @@ from spikevar.base.layout import (
     ResultsLayout,
 )
 from spikevar.pipeline.rule_inputs import (
-    cohort_statistics_params,
     RECOVERY_PARALLEL_MB,
+    cohort_statistics_params,
     handoff_normalised_inputs,
     recovery_threads,
     report_categories,
