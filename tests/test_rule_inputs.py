@@ -12,6 +12,7 @@ from spikevar.pipeline.rule_inputs import (
     RECOVERY_PARALLEL_MB,
     cohort_statistics_params,
     handoff_normalised_inputs,
+    raw_spikes_mb,
     recovery_threads,
     report_categories,
 )
@@ -62,3 +63,13 @@ def test_only_large_sessions_take_two_threads_for_their_fits():
     # the spike table holds about 8 bytes per spike: the same size as the table's own limit
     assert RECOVERY_PARALLEL_MB * 1e6 / 8 == PARALLEL_MIN_SPIKES
     assert recovery_threads(1.0) == 1 and recovery_threads(180.0) == 2
+
+
+def test_raw_spike_size_counts_the_spike_files_only(tmp_path):
+    (tmp_path / "s.csv").write_bytes(b"x" * 3_000_000)
+    (tmp_path / "e.csv").write_bytes(b"x" * 5_000_000)
+    sheet = pd.DataFrame({"spikes": [str(tmp_path / "s.csv"), str(tmp_path / "gone.csv")],
+                          "events": [str(tmp_path / "e.csv"), ""]}, index=["s1", "s2"])
+    config = {"spike_arrays": {"times": "times.npy", "units": "units.npy"}}
+    assert raw_spikes_mb(sheet, "s1", config) == 3.0
+    assert raw_spikes_mb(sheet, "s2", config) == 0.0  # ingestion reports the missing file

@@ -33,6 +33,7 @@ from spikevar.pipeline.rule_inputs import (
     declared_span,
     has_unit_labels,
     primary_alignment,
+    raw_spikes_mb,
     recovery_threads,
     report_categories,
     sheet_records,

@@ -14,7 +14,7 @@ rule session_recovery:
         **LAYOUT.session_logs("{session}", "recovery"),
     benchmark:
         LAYOUT.session_benchmark("{session}", "session_recovery")
-    threads: lambda wildcards, input: recovery_threads(input.size_mb)
+    threads: lambda wildcards: recovery_threads(raw_spikes_mb(SHEET, wildcards.session, config))
     conda:
         "../envs/spikevar.yaml"
     group:

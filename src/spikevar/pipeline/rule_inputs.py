@@ -113,8 +113,9 @@ def primary_alignment(config: dict) -> str:
     return (list(config["alignments"]) or [config["columns"]["event_time"]])[0]
 
 
-#: spike tables at least this large (MB; about 8 bytes per spike) are fitted over two worker
-#: processes (``recovery.table.PARALLEL_MIN_SPIKES``: one million spikes)
+#: raw spike inputs at least this large (MB; every raw format takes about 8 bytes or more per
+#: spike) are fitted over two worker processes (``recovery.table.PARALLEL_MIN_SPIKES``: one
+#: million spikes)
 RECOVERY_PARALLEL_MB = 8.0
 
 
@@ -123,6 +124,15 @@ def recovery_threads(spikes_mb: float) -> int:
     two workers, else 1 (a 2-thread job holds both cores of a laptop: 200 small sessions
     fitted on 2 threads each ran one at a time)."""
     return 2 if spikes_mb >= RECOVERY_PARALLEL_MB else 1
+
+
+def raw_spikes_mb(sheet: pd.DataFrame, session: str, config: dict) -> float:
+    """Size in MB of a session's raw spike input (its files; 0 when missing). Known before any
+    job runs, so the job's threads are a plain number when the workflow is planned (a cluster
+    job group needs that)."""
+    inputs = ingest_inputs(sheet, session, config)
+    paths = [inputs[k] for k in ("spikes", "spike_units") if k in inputs]
+    return sum(os.path.getsize(p) for p in paths if os.path.isfile(p)) / 1e6
 
 
 def report_categories(config: dict) -> list[str]:
