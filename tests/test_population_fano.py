@@ -141,3 +141,17 @@ def test_matching_reports_how_many_units_it_kept_and_their_mean_count():
     assert table["fano_regression"].notna().all()
     assert table["population_reason"].str.startswith(
         ("mean matching kept fewer than 5", "no common")).all()
+
+
+def test_resamples_over_two_workers_give_the_same_table_to_the_bit():
+    # each worker advances its copy of the random stream to where the one-process loop would
+    # stand, so the intervals do not depend on the number of workers
+    rng = np.random.default_rng(8)
+    counts = rng.poisson(rng.uniform(1.0, 6.0, size=(60, 1, 1)), size=(60, 25, 3))
+    tc = timecourse_from_counts(counts, [0.0, 0.1, 0.2])
+    tc["subject"] = "m" + (tc["unit"].str[1:].astype(int) % 5).astype(str)
+    settings = MeanMatchSettings(n_boot=13, n_bins=5, n_repeats=3)
+    one = population_fano_table(tc, settings=settings, seed=4, workers=1)
+    two = population_fano_table(tc, settings=settings, seed=4, workers=2)
+    assert one["ci_lo"].notna().all()
+    pd.testing.assert_frame_equal(one, two)

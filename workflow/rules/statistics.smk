@@ -13,6 +13,8 @@ rule population_fano:
         **LAYOUT.cohort_logs("population_fano"),
     benchmark:
         LAYOUT.cohort_benchmark("population_fano")
+    # worker processes sharing the subject resamples (one process below 200,000 rows)
+    threads: 2
     conda:
         "../envs/spikevar.yaml"
     resources:

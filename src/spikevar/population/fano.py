@@ -28,6 +28,7 @@ window ("series" x window):
 
 from __future__ import annotations
 
+import multiprocessing
 import warnings
 from dataclasses import dataclass
 
@@ -214,8 +215,83 @@ def _series_of(tc: pd.DataFrame, times: np.ndarray):
     return series, groups
 
 
+#: the resampling inputs, read by forked workers (inherited memory, not copied per task)
+_RESAMPLING: dict = {}
+
+
+def _uniforms_per_estimate(series: list[Series], draws: dict, b: int, n_repeats: int) -> int:
+    """Random numbers :func:`estimate` draws for resample ``b``: one per unit and window in
+    each matching (:func:`mean_match_mask`)."""
+    return n_repeats * sum(len(draws[s.group][b]) * s.mean.shape[1] for s in series)
+
+
+def _estimate_resamples(first: int, stop: int) -> tuple[np.ndarray, np.ndarray]:
+    """Regression and mean-matched slopes of resamples ``first`` to ``stop - 1``, with the
+    random stream advanced to where the one-process loop would stand at ``first``."""
+    job = _RESAMPLING
+    rng = job.get("rng")
+    if rng is None:
+        bit_generator = np.random.PCG64()
+        bit_generator.state = job["state"]
+        bit_generator.advance(int(job["offsets"][first]))
+        rng = np.random.Generator(bit_generator)
+    series, draws = job["series"], job["draws"]
+    n_win = series[0].mean.shape[1] if series else 0
+    reg = np.full((stop - first, len(series), n_win), np.nan)
+    matched = np.full_like(reg, np.nan)
+    for b in range(first, stop):
+        resampled = [Series(s.group, s.condition, s.alignment, s.mean[draws[s.group][b]],
+                            s.var[draws[s.group][b]], s.n_trials[draws[s.group][b]])
+                     for s in series]
+        for k, result in enumerate(estimate(resampled, job["scopes"], job["edges"],
+                                            n_repeats=job["n_repeats"], rng=rng)):
+            reg[b - first, k] = result["regression"]
+            matched[b - first, k] = result["matched"]
+    return reg, matched
+
+
+def _estimate_resamples_task(task: tuple[int, int]) -> tuple[np.ndarray, np.ndarray]:
+    return _estimate_resamples(*task)
+
+
+def _resample_estimates(series, scopes, edges, draws, *, n_boot: int, n_repeats: int,
+                        rng: np.random.Generator, workers: int = 1) -> dict[str, np.ndarray]:
+    """(resamples, series, windows) slopes of every subject resample, over ``workers`` forked
+    processes.
+
+    Each resample's matchings use the random numbers the one-process loop would give it: the
+    count each resample draws is known in advance, so a worker starts its share by advancing
+    a copy of the generator (PCG64's ``advance``, one 64-bit output per uniform double) to
+    where the loop would stand. The table is the same for any number of workers, to the bit.
+    """
+    n_win = series[0].mean.shape[1] if series else 0
+    boot = {k: np.full((max(n_boot, 2), len(series), n_win), np.nan)
+            for k in ("regression", "matched")}
+    if n_boot == 0:
+        return boot
+    counts = [_uniforms_per_estimate(series, draws, b, n_repeats) for b in range(n_boot)]
+    exact = isinstance(rng.bit_generator, np.random.PCG64)
+    _RESAMPLING.update(series=series, scopes=scopes, edges=edges, draws=draws,
+                       n_repeats=n_repeats, offsets=np.concatenate([[0], np.cumsum(counts)]),
+                       state=rng.bit_generator.state, rng=None if exact else rng)
+    try:
+        if workers > 1 and n_boot > 1 and exact:
+            n_tasks = min(n_boot, 4 * workers)
+            cuts = np.linspace(0, n_boot, n_tasks + 1).round().astype(int)
+            tasks = [(int(a), int(b)) for a, b in zip(cuts[:-1], cuts[1:], strict=True) if b > a]
+            with multiprocessing.get_context("fork").Pool(min(workers, len(tasks))) as pool:
+                parts = pool.map(_estimate_resamples_task, tasks, chunksize=1)
+        else:
+            parts = [_estimate_resamples(0, n_boot)]
+    finally:
+        _RESAMPLING.clear()
+    boot["regression"][:n_boot] = np.concatenate([p[0] for p in parts])
+    boot["matched"][:n_boot] = np.concatenate([p[1] for p in parts])
+    return boot
+
+
 def population_fano_table(timecourse: pd.DataFrame, *, settings: MeanMatchSettings,
-                          seed: int) -> pd.DataFrame:
+                          seed: int, workers: int = 1) -> pd.DataFrame:
     """One row per group x condition x window (see the module docstring).
 
     Notes
@@ -227,6 +303,8 @@ def population_fano_table(timecourse: pd.DataFrame, *, settings: MeanMatchSettin
     variance in a window (no trials, single trial) are left out of that window. Fewer than
     ``min_units`` usable units give NaN values with ``population_reason``; a condition present
     in some sessions only uses the units that have it (``n_units`` says how many).
+    ``workers``: processes sharing the resamples; the table is the same for any number
+    (:func:`_resample_estimates`).
     """
     if len(timecourse) == 0:
         return pd.DataFrame({c: pd.Series(dtype=float if c not in ("group", "condition",
@@ -265,16 +343,8 @@ def population_fano_table(timecourse: pd.DataFrame, *, settings: MeanMatchSettin
                                                   levels=("subject",))
         cuts = np.searchsorted(rep, np.arange(1, n_boot))
         draws[group] = np.split(rows, cuts)
-    boot = {k: np.full((max(n_boot, 2), len(series), len(times)), np.nan)
-            for k in ("regression", "matched")}
-    for b in range(n_boot):
-        resampled = [Series(s.group, s.condition, s.alignment, s.mean[draws[s.group][b]],
-                            s.var[draws[s.group][b]], s.n_trials[draws[s.group][b]])
-                     for s in series]
-        for k, result in enumerate(estimate(resampled, scopes, edges,
-                                            n_repeats=settings.n_repeats, rng=rng)):
-            boot["regression"][b, k] = result["regression"]
-            boot["matched"][b, k] = result["matched"]
+    boot = _resample_estimates(series, scopes, edges, draws, n_boot=n_boot,
+                               n_repeats=settings.n_repeats, rng=rng, workers=workers)
     reg = np.stack([r["regression"] for r in point])
     matched = np.stack([r["matched"] for r in point])
     reg_lo, reg_hi = few_cluster_interval(reg, boot["regression"], n_subjects)
