@@ -61,3 +61,27 @@ def test_badly_scaled_variables_converge_in_a_few_steps():
     res = minimise_in_box(fun, [-3.0, 2.0001], [-10.0, -10.0], [10.0, 10.0])
     assert res.success and res.evaluations <= 4
     np.testing.assert_allclose(res.x, centre, atol=1e-9)
+
+
+def test_many_problems_at_once_take_the_steps_of_each_alone():
+    # minimise_in_boxes must stop every problem where minimise_in_box stops it (same steps,
+    # cuts and messages): Rosenbrock from several starts, boxes that cut the minimum off,
+    # and one start outside the box
+    from spikevar.recovery.box_newton import minimise_in_boxes
+
+    starts = np.array([[-1.2, 1.0], [-1.0, 1.5], [2.0, -1.0], [0.3, 0.3], [9.0, 9.0]])
+    lower = np.array([[-5.0, -5.0], [-2.0, -2.0], [-3.0, -3.0], [0.0, 0.0], [-5.0, -5.0]])
+    upper = np.array([[5.0, 5.0], [0.5, 2.0], [3.0, 3.0], [0.8, 0.5], [5.0, 5.0]])
+
+    def many(x, rows):
+        return (np.array([optimize.rosen(v) for v in x]),
+                np.array([optimize.rosen_der(v) for v in x]),
+                np.array([optimize.rosen_hess(v) for v in x]))
+
+    together = minimise_in_boxes(many, starts, lower, upper)
+    for k in range(len(starts)):
+        alone = minimise_in_box(rosenbrock, starts[k], lower[k], upper[k])
+        np.testing.assert_array_equal(together.x[k], alone.x)
+        assert together.message[k] == alone.message
+        assert together.success[k] == alone.success
+        assert together.evaluations[k] == alone.evaluations

@@ -9,7 +9,7 @@ import pytest
 
 from spikevar.recovery.fit import (
     Intervals,
-    fit_all,
+    fit_all_units,
     ks_uniform,
     nested_lr_pvalues,
     preferred_model,
@@ -19,9 +19,11 @@ from spikevar.recovery.ks_null import fitted_ks_pvalue
 from spikevar.synth import simulate
 
 
-def fits_of(model, n, rng):
-    iv = Intervals.build(model.draw(n, rng))
-    return iv, {f.model: f for f in fit_all(iv, with_interval=False)}
+def fits_of(model, n, rng, reps):
+    """``reps`` trains of ``n`` intervals, fitted together: (intervals, fits by model) each."""
+    ivs = [Intervals.build(model.draw(n, rng)) for _ in range(reps)]
+    return [(iv, {f.model: f for f in fits})
+            for iv, fits in zip(ivs, fit_all_units(ivs, with_interval=False), strict=True)]
 
 
 @pytest.mark.parametrize("truth,expected", [
@@ -35,15 +37,14 @@ def test_preferred_model_is_right_in_at_least_90_percent(truth, expected):
     # Biometrika 72:67). Now nested likelihood-ratio tests with exact / boundary nulls.
     rng = np.random.default_rng(21)
     chosen = [preferred_model(fits, iv.n) for iv, fits in
-              (fits_of(truth, 2000, rng) for _ in range(200))]
+              fits_of(truth, 2000, rng, 200)]
     share = np.mean([c == expected for c in chosen])
     assert share >= 0.90, (expected, share)
 
 
 def ks_pvalues(truth, model, n, reps, rng):
     out = []
-    for _ in range(reps):
-        iv, fits = fits_of(truth, n, rng)
+    for iv, fits in fits_of(truth, n, rng, reps):
         fit = fits[model]
         ks, _ = ks_uniform(rescaled_intervals(fit, iv))
         out.append(fitted_ks_pvalue(ks, iv.n, model, fit.rate_hz * fit.tau_s))
@@ -80,10 +81,9 @@ def test_nested_lr_pvalues_have_their_size():
     # JASA 82:605) is conservative here (size at most 5%). 300 trains of 2,000 intervals each.
     rng = np.random.default_rng(51)
     p_dt = [nested_lr_pvalues(f, iv.n)["dead_time"]
-            for iv, f in (fits_of(simulate.PoissonISI(20.0), 2000, rng) for _ in range(300))]
+            for iv, f in fits_of(simulate.PoissonISI(20.0), 2000, rng, 300)]
     p_er = [nested_lr_pvalues(f, iv.n)["exp_recovery"]
-            for iv, f in (fits_of(simulate.DeadTimeISI(20.0, 0.002), 2000, rng)
-                          for _ in range(300))]
+            for iv, f in fits_of(simulate.DeadTimeISI(20.0, 0.002), 2000, rng, 300)]
     assert 0.025 <= np.mean(np.array(p_dt) < 0.05) <= 0.08
     assert np.mean(np.array(p_er) < 0.05) <= 0.06
     # the exact null also holds over the whole range: p-values are uniform under Poisson

@@ -291,3 +291,54 @@ def test_newton_fits_reach_at_least_the_likelihood_of_a_general_optimiser():
                 best = max(best, -res.fun)
         assert fit.converged
         assert fit.log_likelihood >= best - 1e-6 * abs(best), (fit.log_likelihood, best)
+
+
+def test_units_fitted_together_match_each_fitted_alone():
+    # the session's units share every Newton pass (recovery.unit_batch); each must end where
+    # its own fit ends: Poisson, dead-time, gamma, exponential-recovery and near-periodic
+    # trains, and a unit with a zero-length interval (no fit) among them
+    from spikevar.recovery.fit import fit_exp_recovery_units
+
+    rng = np.random.default_rng(12)
+    models = [simulate.PoissonISI(15.0), simulate.DeadTimeISI(30.0, 0.004),
+              simulate.GammaISI(8.0, 4.0), simulate.ExpRecoveryISI(40.0, 0.01, 0.002),
+              simulate.GammaISI(20.0, 60.0)]
+    ivs = [Intervals.build(m.draw(n, rng), censored=0.05)
+           for m in models for n in (80, 3000)]
+    ivs.insert(3, Intervals.build(np.r_[0.0, rng.exponential(0.1, 200)]))
+    together = fit_exp_recovery_units(ivs, with_interval=True)
+    for iv, fit in zip(ivs, together, strict=True):
+        alone = fit_exp_recovery(iv, with_interval=True)
+        assert fit.converged == alone.converged and fit.tau_at_bound == alone.tau_at_bound
+        assert fit.note == alone.note
+        if np.isfinite(alone.tau_s):
+            assert fit.tau_s == pytest.approx(alone.tau_s, rel=1e-9)
+            assert fit.log_likelihood == pytest.approx(alone.log_likelihood, rel=1e-12)
+            np.testing.assert_allclose(fit.tau_ci, alone.tau_ci, rtol=1e-7)
+    assert not together[3].converged and "zero-length" in together[3].note
+
+
+def test_the_packed_likelihood_equals_the_one_unit_likelihood():
+    # recovery.unit_batch evaluates many units at once; at any (tau, d) each unit's value,
+    # gradient and Hessian must be those of recovery.exp_likelihood (plain and weighted
+    # intervals, the censored interval present or not, points near and far past the cut)
+    from spikevar.recovery import unit_batch
+
+    rng = np.random.default_rng(13)
+    ivs = []
+    for k in range(6):
+        isi = simulate.ExpRecoveryISI(30.0, 0.004 * (k + 1), 0.001).draw(1500, rng)
+        weights = None if k % 2 else rng.uniform(0.5, 1.5, len(isi))
+        ivs.append(Intervals.build(isi, censored=0.03 * (k % 3), weights=weights,
+                                   censored_weight=1.2))
+    batch = unit_batch.IntervalBatch.of(ivs)
+    which = np.repeat(np.arange(len(ivs)), 4)
+    theta = np.stack([np.log(rng.uniform(1e-4, 0.2, len(which))),
+                      rng.uniform(0.0, 0.99, len(which))], axis=1)
+    value, grad, hess = unit_batch.objective_with_hessian(theta, batch, which)
+    plain = unit_batch.profile_values(theta, batch, which)
+    for j, k in enumerate(which):
+        v1, g1, h1 = objective_with_hessian(theta[j], ivs[k])
+        assert value[j] == pytest.approx(v1, rel=1e-12) and plain[j] == value[j]
+        np.testing.assert_allclose(grad[j], g1, rtol=1e-8, atol=1e-9 * abs(v1))
+        np.testing.assert_allclose(hess[j], h1, rtol=1e-8, atol=1e-9 * abs(v1))

@@ -31,8 +31,8 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import special
 
-from spikevar.recovery import exp_likelihood, hazard_models
-from spikevar.recovery.box_newton import minimise_in_box
+from spikevar.recovery import exp_likelihood, hazard_models, unit_batch
+from spikevar.recovery.box_newton import minimise_in_box, minimise_in_boxes
 from spikevar.recovery.interval_quadrature import compressed_sums
 from spikevar.recovery.slow_rate import interval_weights, kernel_rate
 
@@ -155,7 +155,18 @@ def _box(iv: Intervals):
 
 
 def fit_exp_recovery(iv: Intervals, *, with_interval: bool = True) -> Fit:
-    """Joint MLE of ``(r_inf, tau, d)`` by Newton's method on ``(log tau, d / min_isi)``.
+    """Joint MLE of ``(r_inf, tau, d)`` of one unit (:func:`fit_exp_recovery_units`)."""
+    return fit_exp_recovery_units([iv], with_interval=with_interval)[0]
+
+
+#: starting grid: tau as fractions of the mean interval, d as fractions of the shortest
+START_TAU_FRACTIONS = (0.01, 0.03, 0.1, 0.3, 1.0)
+START_D_FRACTIONS = (0.0, 0.5)
+
+
+def fit_exp_recovery_units(ivs: list[Intervals], *, with_interval: bool = True) -> list[Fit]:
+    """Joint MLE of ``(r_inf, tau, d)`` of each unit, by Newton's method on
+    ``(log tau, d / min_isi)``, all units at once.
 
     Notes
     -----
@@ -172,48 +183,80 @@ def fit_exp_recovery(iv: Intervals, *, with_interval: bool = True) -> Fit:
     95% interval for ``tau`` is the profile-likelihood interval (``d`` re-optimised at each
     ``tau``); an end that reaches a bound is reported as 0 or inf. No interval is given at the
     upper bound.
-    """
-    if not iv.min_isi > 0:
-        return Fit("exp_recovery", note="zero-length interval (duplicate spike times): the "
-                   "recovery model gives it zero probability")
-    lower, upper = _box(iv)
-    lo, hi = np.exp(lower[0]), np.exp(upper[0])
-    starts = [(np.log(np.clip(f * iv.mean_isi, lo, hi)), df)
-              for f in (0.01, 0.03, 0.1, 0.3, 1.0) for df in (0.0, 0.5)]
-    values = [exp_likelihood.objective(np.array(s), iv)[0] for s in starts]
-    x0 = np.array(starts[int(np.argmin(values))])
-    def newton_from(start):
-        return minimise_in_box(lambda th: exp_likelihood.objective_with_hessian(th, iv), start,
-                               lower, upper, open_upper=D_OPEN_UPPER)
 
-    res = newton_from(x0)
-    if np.exp(res.x[0]) < iv.min_isi:
+    The units are fitted together (:mod:`spikevar.recovery.unit_batch`): each unit takes the
+    steps it would take alone; only the order of summation in its sums differs.
+    """
+    fits: list[Fit | None] = [None] * len(ivs)
+    todo = []
+    for i, iv in enumerate(ivs):
+        if iv.min_isi > 0:
+            todo.append(i)
+        else:
+            fits[i] = Fit("exp_recovery", note="zero-length interval (duplicate spike times): "
+                          "the recovery model gives it zero probability")
+    if not todo:
+        return fits
+    batch = unit_batch.IntervalBatch.of([ivs[i] for i in todo])
+    k = batch.n_units
+    units = np.arange(k)
+    boxes = [_box(ivs[i]) for i in todo]
+    lower = np.array([b[0] for b in boxes])
+    upper = np.array([b[1] for b in boxes])
+    lo, hi = np.exp(lower[:, 0]), np.exp(upper[:, 0])
+    grid = [(f, df) for f in START_TAU_FRACTIONS for df in START_D_FRACTIONS]
+    starts = np.stack([np.stack([np.log(np.clip(f * batch.mean_isi, lo, hi)),
+                                 np.full(k, df)], axis=1) for f, df in grid], axis=1)
+    values = unit_batch.profile_values(starts.reshape(-1, 2), batch,
+                                       np.repeat(units, len(grid))).reshape(k, len(grid))
+    x0 = starts[units, np.argmin(values, axis=1)]
+
+    def newton_from(start, which):
+        return minimise_in_boxes(
+            lambda th, rows: unit_batch.objective_with_hessian(th, batch, which[rows]),
+            start, lower[which], upper[which], open_upper=D_OPEN_UPPER)
+
+    res = newton_from(x0, units)
+    x, fun, pg = res.x.copy(), res.fun.copy(), res.projected_grad.copy()
+    success, message = res.success.copy(), res.message.copy()
+    fast = np.flatnonzero(np.exp(x[:, 0]) < batch.min_isi)
+    if len(fast):
         # recovery faster than the shortest interval: the likelihood can have a second
         # maximum (tau at its lower bound with d just under the shortest interval, or a short
         # tau with a smaller d); start once in each and keep the best
-        for start in ((lower[0], 0.9), (np.log(iv.min_isi), 0.0)):
-            other = newton_from(np.array(start))
-            if other.fun < res.fun - 1e-9 * abs(res.fun):
-                res = other
-    tau, d = float(np.exp(res.x[0])), float(res.x[1] * iv.min_isi)
-    ll = -res.fun
-    D = exp_likelihood.recovery_terms(iv, tau, d)[0]
-    worst = float(np.max(np.abs(res.projected_grad)))
-    # or Newton's step is below the variables' resolution: where the curvature is huge (d next
-    # to the shortest interval) a gradient of 1e-3 moves d by less than rounding
-    converged = bool(np.isfinite(ll)) and (worst < PROJECTED_GRADIENT_TOL or res.success)
-    note, at_bound = "", ""
-    if res.x[0] >= upper[0] - 1e-6:
-        at_bound, note = "upper", "tau at upper bound: recovery slower than the data resolve"
-    elif res.x[0] <= lower[0] + 1e-6:
-        at_bound, note = "lower", "tau at lower bound: dead-time limit"
-    if not converged:
-        note = f"optimiser: {res.message}; projected gradient {worst:.2g}"
-    fit = Fit("exp_recovery", rate_hz=iv.n / D, tau_s=tau, dead_time_s=d, log_likelihood=ll,
-              converged=converged, note=note, tau_at_bound=at_bound)
-    if with_interval and converged and at_bound != "upper":
-        fit.tau_ci = profile_tau_interval(iv, tau_hat=tau, loglik_hat=ll, d_hat=d)
-    return fit
+        for start in (np.stack([lower[fast, 0], np.full(len(fast), 0.9)], axis=1),
+                      np.stack([np.log(batch.min_isi[fast]), np.zeros(len(fast))], axis=1)):
+            other = newton_from(start, fast)
+            better = other.fun < fun[fast] - 1e-9 * np.abs(fun[fast])
+            rows = fast[better]
+            x[rows], fun[rows], pg[rows] = other.x[better], other.fun[better], \
+                other.projected_grad[better]
+            success[rows], message[rows] = other.success[better], other.message[better]
+    tau, d = np.exp(x[:, 0]), x[:, 1] * batch.min_isi
+    ll = -fun
+    D = unit_batch.recovery_terms(batch, units, tau, d)[0]
+    for j, i in enumerate(todo):
+        worst = float(np.max(np.abs(pg[j])))
+        # or Newton's step is below the variables' resolution: where the curvature is huge
+        # (d next to the shortest interval) a gradient of 1e-3 moves d by less than rounding
+        converged = bool(np.isfinite(ll[j])) and (worst < PROJECTED_GRADIENT_TOL
+                                                  or bool(success[j]))
+        note, at_bound = "", ""
+        if x[j, 0] >= upper[j, 0] - 1e-6:
+            at_bound, note = "upper", "tau at upper bound: recovery slower than the data resolve"
+        elif x[j, 0] <= lower[j, 0] + 1e-6:
+            at_bound, note = "lower", "tau at lower bound: dead-time limit"
+        if not converged:
+            note = f"optimiser: {message[j]}; projected gradient {worst:.2g}"
+        fit = Fit("exp_recovery", rate_hz=float(batch.n[j] / D[j]), tau_s=float(tau[j]),
+                  dead_time_s=float(d[j]), log_likelihood=float(ll[j]), converged=converged,
+                  note=note, tau_at_bound=at_bound)
+        if with_interval and converged and at_bound != "upper":
+            fit.tau_ci = profile_tau_interval(ivs[i], tau_hat=fit.tau_s,
+                                              loglik_hat=fit.log_likelihood,
+                                              d_hat=fit.dead_time_s)
+        fits[i] = fit
+    return fits
 
 
 def profile_over_d(iv: Intervals, log_tau: float, d_frac: float) -> tuple[float, float, float]:
@@ -406,7 +449,14 @@ def preferred_model(fits: dict[str, Fit], n: int, *,
 
 def fit_all(iv: Intervals, *, with_interval: bool = True) -> list[Fit]:
     """The three nested models for one unit's intervals."""
-    return [fit_poisson(iv), fit_dead_time(iv), fit_exp_recovery(iv, with_interval=with_interval)]
+    return fit_all_units([iv], with_interval=with_interval)[0]
+
+
+def fit_all_units(ivs: list[Intervals], *, with_interval: bool = True) -> list[list[Fit]]:
+    """The three nested models for each unit's intervals (exp_recovery fitted together)."""
+    recovery = fit_exp_recovery_units(ivs, with_interval=with_interval)
+    return [[fit_poisson(iv), fit_dead_time(iv), fit] for iv, fit in
+            zip(ivs, recovery, strict=True)]
 
 
 def fit_exp_recovery_modulated(times: np.ndarray, *, span_s: tuple[float, float],
@@ -414,39 +464,67 @@ def fit_exp_recovery_modulated(times: np.ndarray, *, span_s: tuple[float, float]
                                with_interval: bool = True,
                                order: np.ndarray | None = None,
                                same_intervals: Intervals | None = None) -> tuple[Fit, Intervals]:
-    """exp_recovery with the rate multiplied by the unit's own slow rate (non-stationary fit).
+    """exp_recovery with the rate multiplied by the unit's own slow rate (one unit of
+    :func:`fit_exp_recovery_modulated_units`)."""
+    return fit_exp_recovery_modulated_units(
+        [times], span_s=span_s, bandwidth_s=bandwidth_s, iterations=iterations,
+        with_interval=with_interval, orders=None if order is None else [order],
+        same_intervals=None if same_intervals is None else [same_intervals])[0]
+
+
+def fit_exp_recovery_modulated_units(trains: list[np.ndarray], *, span_s: tuple[float, float],
+                                     bandwidth_s: float, iterations: int = 4,
+                                     with_interval: bool = True,
+                                     orders: list[np.ndarray] | None = None,
+                                     same_intervals: list[Intervals] | None = None,
+                                     ) -> list[tuple[Fit, Intervals]]:
+    """exp_recovery with the rate multiplied by each unit's own slow rate (non-stationary
+    fit), the units fitted together.
 
     Alternates: (1) weights from the kernel-smoothed rate, converted to the free rate with the
-    current ``(tau, d)``; (2) maximum-likelihood fit of ``(r_inf, tau, d)`` given the weights.
-    The first pass uses the output rate itself. Returns the fit and the weighted intervals
-    (for time rescaling). ``order``: the ascending order of the intervals, and
-    ``same_intervals``: the stationary fit's intervals built in that order, when the caller has
-    them.
+    current ``(tau, d)``; (2) maximum-likelihood fit of ``(r_inf, tau, d)`` given the weights
+    (:func:`fit_exp_recovery_units`). The first pass uses the output rate itself; a unit stops
+    when its ``tau`` changes by less than 0.1% or its fit does not converge. Returns per unit
+    the fit and the weighted intervals (for time rescaling). ``orders``: the ascending order
+    of each unit's intervals, and ``same_intervals``: the stationary fit's intervals built in
+    that order, when the caller has them.
     """
-    isi = np.diff(times)
-    if order is None:  # the same at every pass; only the weights change
-        order = np.argsort(isi)
-    censored = span_s[1] - times[-1]
-    tau = d = None
-    fit, iv = None, same_intervals
-    smoothed = kernel_rate(times, span_s=span_s, bandwidth_s=bandwidth_s)
+    isis = [np.diff(t) for t in trains]
+    # the same at every pass; only the weights change
+    orders = [np.argsort(isi) for isi in isis] if orders is None else orders
+    ivs = list(same_intervals) if same_intervals is not None else [None] * len(trains)
+    smoothed = [kernel_rate(t, span_s=span_s, bandwidth_s=bandwidth_s) for t in trains]
+    fits: list[Fit | None] = [None] * len(trains)
+    tau: list[float | None] = [None] * len(trains)
+    d: list[float | None] = [None] * len(trains)
+    going = list(range(len(trains)))
     for _ in range(iterations):
-        w, wc = interval_weights(times, span_s=span_s, bandwidth_s=bandwidth_s, tau_s=tau,
-                                 dead_time_s=d or 0.0, smoothed=smoothed)
-        iv = Intervals.build(isi, censored=censored, weights=w, censored_weight=wc, order=order,
-                             same_intervals=iv)
+        if not going:
+            break
+        for i in going:
+            w, wc = interval_weights(trains[i], span_s=span_s, bandwidth_s=bandwidth_s,
+                                     tau_s=tau[i], dead_time_s=d[i] or 0.0,
+                                     smoothed=smoothed[i])
+            ivs[i] = Intervals.build(isis[i], censored=span_s[1] - trains[i][-1], weights=w,
+                                     censored_weight=wc, order=orders[i],
+                                     same_intervals=ivs[i])
         # every pass starts from the grid: a warm start from the last pass was tried and
         # ended in another optimum (or at a bound) for some units
-        new = fit_exp_recovery(iv, with_interval=False)
-        if not new.converged:
-            fit = new
-            break
-        done = fit is not None and abs(new.tau_s - fit.tau_s) < 1e-3 * fit.tau_s
-        fit, tau, d = new, new.tau_s, new.dead_time_s
-        if done:
-            break
-    fit.model = "exp_recovery"
-    if with_interval and fit.converged:
-        fit.tau_ci = profile_tau_interval(iv, tau_hat=fit.tau_s, loglik_hat=fit.log_likelihood,
-                                          d_hat=fit.dead_time_s)
-    return fit, iv
+        new_fits = fit_exp_recovery_units([ivs[i] for i in going], with_interval=False)
+        still = []
+        for i, new in zip(going, new_fits, strict=True):
+            if not new.converged:
+                fits[i] = new
+                continue
+            done = fits[i] is not None and abs(new.tau_s - fits[i].tau_s) < 1e-3 * fits[i].tau_s
+            fits[i], tau[i], d[i] = new, new.tau_s, new.dead_time_s
+            if not done:
+                still.append(i)
+        going = still
+    for i, fit in enumerate(fits):
+        fit.model = "exp_recovery"
+        if with_interval and fit.converged:
+            fit.tau_ci = profile_tau_interval(ivs[i], tau_hat=fit.tau_s,
+                                              loglik_hat=fit.log_likelihood,
+                                              d_hat=fit.dead_time_s)
+    return list(zip(fits, ivs, strict=True))

@@ -14,8 +14,10 @@ from spikevar.base.spike_arrays import SpikeArrays, load_spikes, recording_span
 from spikevar.recovery.fit import (
     Fit,
     Intervals,
-    fit_all,
-    fit_exp_recovery_modulated,
+    fit_dead_time,
+    fit_exp_recovery_modulated_units,
+    fit_exp_recovery_units,
+    fit_poisson,
     ks_uniform,
     nested_lr_pvalues,
     preferred_model,
@@ -53,7 +55,14 @@ def _row(unit: str, fit: Fit, iv: Intervals | None, kind: str) -> dict:
 
 def unit_recovery_rows(unit: str, times: np.ndarray, *, span_s: tuple[float, float],
                        settings: RecoverySettings) -> list[dict]:
-    """All model rows for one unit (stationary fits, then the slow-rate-modulated fit).
+    """All model rows for one unit (:func:`units_recovery_rows`)."""
+    return units_recovery_rows([unit], [times], span_s=span_s, settings=settings)
+
+
+def units_recovery_rows(units: list[str], trains: list[np.ndarray], *,
+                        span_s: tuple[float, float], settings: RecoverySettings) -> list[dict]:
+    """All model rows of each unit (stationary fits, then the slow-rate-modulated fit), the
+    units' exp_recovery fits computed together; rows in unit order.
 
     Notes
     -----
@@ -64,38 +73,49 @@ def unit_recovery_rows(unit: str, times: np.ndarray, *, span_s: tuple[float, flo
     (:func:`spikevar.recovery.fit.preferred_model`); ``nested_lr_pvalue`` is each model's
     p-value against the next simpler one. ``aic`` is kept as a column.
     """
-    isi = np.diff(times)
-    if len(isi) < settings.min_intervals or np.ptp(isi) == 0:
-        note = (f"too few intervals ({len(isi)} < {settings.min_intervals})"
-                if len(isi) < settings.min_intervals else "all intervals equal")
-        kinds = [("stationary", m) for m in ("poisson", "dead_time", "exp_recovery")]
-        if settings.modulated_fit:
-            kinds.append(("slow_rate_modulated", "exp_recovery"))
-        return [dict(_row(unit, Fit(m, note=note), None, k), n_intervals=len(isi))
-                for k, m in kinds]
-    order = np.argsort(isi)  # ties in any order: the fits' sums do not depend on it
-    iv = Intervals.build(isi, censored=span_s[1] - times[-1], order=order)
-    fits = fit_all(iv, with_interval=settings.tau_interval)
-    rows = [_row(unit, f, iv, "stationary") for f in fits]
-    by_model = {f.model: f for f in fits}
-    p_values = nested_lr_pvalues(by_model, iv.n)
-    choice = preferred_model(by_model, iv.n)
-    for row in rows:
-        row["nested_lr_pvalue"] = p_values[row["model"]]
-        row["preferred"] = row["model"] == choice
-    if settings.modulated_fit:
-        fit, weighted = fit_exp_recovery_modulated(
-            times, span_s=span_s, bandwidth_s=settings.slow_rate_bandwidth_s,
-            with_interval=settings.modulated_tau_interval, order=order, same_intervals=iv)
-        rows.append(_row(unit, fit, weighted, "slow_rate_modulated"))
-    return rows
+    rows: list[list[dict]] = [[] for _ in units]
+    fitted, ivs, orders = [], [], []
+    for j, (unit, times) in enumerate(zip(units, trains, strict=True)):
+        isi = np.diff(times)
+        if len(isi) < settings.min_intervals or np.ptp(isi) == 0:
+            note = (f"too few intervals ({len(isi)} < {settings.min_intervals})"
+                    if len(isi) < settings.min_intervals else "all intervals equal")
+            kinds = [("stationary", m) for m in ("poisson", "dead_time", "exp_recovery")]
+            if settings.modulated_fit:
+                kinds.append(("slow_rate_modulated", "exp_recovery"))
+            rows[j] = [dict(_row(unit, Fit(m, note=note), None, k), n_intervals=len(isi))
+                       for k, m in kinds]
+            continue
+        order = np.argsort(isi)  # ties in any order: the fits' sums do not depend on it
+        fitted.append(j)
+        orders.append(order)
+        ivs.append(Intervals.build(isi, censored=span_s[1] - times[-1], order=order))
+    recovery = fit_exp_recovery_units(ivs, with_interval=settings.tau_interval)
+    for j, iv, exp_fit in zip(fitted, ivs, recovery, strict=True):
+        fits = [fit_poisson(iv), fit_dead_time(iv), exp_fit]
+        unit_rows = [_row(units[j], f, iv, "stationary") for f in fits]
+        by_model = {f.model: f for f in fits}
+        p_values = nested_lr_pvalues(by_model, iv.n)
+        choice = preferred_model(by_model, iv.n)
+        for row in unit_rows:
+            row["nested_lr_pvalue"] = p_values[row["model"]]
+            row["preferred"] = row["model"] == choice
+        rows[j] = unit_rows
+    if settings.modulated_fit and fitted:
+        modulated = fit_exp_recovery_modulated_units(
+            [trains[j] for j in fitted], span_s=span_s,
+            bandwidth_s=settings.slow_rate_bandwidth_s,
+            with_interval=settings.modulated_tau_interval, orders=orders, same_intervals=ivs)
+        for j, (fit, weighted) in zip(fitted, modulated, strict=True):
+            rows[j].append(_row(units[j], fit, weighted, "slow_rate_modulated"))
+    return [row for unit_rows in rows for row in unit_rows]
 
 
 #: below this many spikes a session's units are fitted in one process (starting workers would
 #: cost more than it saves)
 PARALLEL_MIN_SPIKES = 1_000_000
 #: the units handed to a worker at a time
-UNITS_PER_TASK = 8
+UNITS_PER_TASK = 32
 
 #: the session being fitted, read by forked workers (inherited memory, not copied per task)
 _SESSION: dict = {}
@@ -103,12 +123,9 @@ _SESSION: dict = {}
 
 def _fit_units(first: int, stop: int) -> list[dict]:
     spikes, bounds = _SESSION["spikes"], _SESSION["bounds"]
-    rows = []
-    for k in range(first, stop):
-        rows.extend(unit_recovery_rows(str(spikes.labels[k]),
-                                       spikes.times[bounds[k]:bounds[k + 1]],
-                                       span_s=_SESSION["span_s"], settings=_SESSION["settings"]))
-    return rows
+    return units_recovery_rows([str(spikes.labels[k]) for k in range(first, stop)],
+                               [spikes.times[bounds[k]:bounds[k + 1]] for k in range(first, stop)],
+                               span_s=_SESSION["span_s"], settings=_SESSION["settings"])
 
 
 def _fit_units_task(task: tuple[int, int]) -> list[dict]:
