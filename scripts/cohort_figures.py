@@ -11,4 +11,5 @@ from spikevar.pipeline.jobs import rule_job  # noqa: E402
 
 with rule_job(snakemake, step="cohort_figures") as sm:  # noqa: F821
     run_cohort_figures(inputs=dict(sm.input.items()),
-                       outputs={name: sm.output[name] for name in COHORT_FIGURES})
+                       outputs={name: sm.output[name] for name in COHORT_FIGURES},
+                       workers=sm.threads)

@@ -342,3 +342,16 @@ def test_the_packed_likelihood_equals_the_one_unit_likelihood():
         assert value[j] == pytest.approx(v1, rel=1e-12) and plain[j] == value[j]
         np.testing.assert_allclose(grad[j], g1, rtol=1e-8, atol=1e-9 * abs(v1))
         np.testing.assert_allclose(hess[j], h1, rtol=1e-8, atol=1e-9 * abs(v1))
+
+
+def test_units_are_fitted_in_runs_bounded_by_units_and_spikes(monkeypatch):
+    # the working memory of a run of units fitted together stays bounded: consecutive runs of
+    # at most UNITS_PER_TASK units and SPIKES_PER_TASK spikes, a larger unit on its own
+    from spikevar.recovery import table
+
+    monkeypatch.setattr(table, "UNITS_PER_TASK", 4)
+    monkeypatch.setattr(table, "SPIKES_PER_TASK", 100)
+    counts = [10, 10, 10, 10, 10, 500, 30, 40, 40, 5]
+    bounds = np.concatenate([[0], np.cumsum(counts)])
+    tasks = table.unit_tasks(bounds)
+    assert tasks == [(0, 4), (4, 5), (5, 6), (6, 8), (8, 10)]

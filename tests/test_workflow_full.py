@@ -328,3 +328,23 @@ def test_a_cohort_of_one_group_gets_an_empty_differences_table(full_run, tmp_pat
     assert set(summary["group"]) == {"all"} and len(summary) > 0
     assert len(differences) == 0
     assert set(TABLES["group_differences"]) <= set(differences.columns)
+
+
+def test_cohort_figures_are_the_same_files_from_one_process_or_two(full_run, tmp_path):
+    """The workflow's cohort_figures job draws over its threads; one process drawing the same
+    tables again writes the same bytes (no dates or random ids in the SVGs, seeded jitter)."""
+    from spikevar.base.layout import COHORT_FIGURES, COHORT_RULE_INPUTS, ResultsLayout
+    from spikevar.figures.run import run_cohort_figures
+
+    out, _, _ = full_run
+    layout = ResultsLayout(str(out))
+    inputs = {t: layout.cohort_output(t) for t in COHORT_RULE_INPUTS["cohort_figures"]}
+    for workers in (1, 2):
+        folder = tmp_path / f"w{workers}"
+        run_cohort_figures(inputs=inputs, workers=workers,
+                           outputs={n: str(folder / f"{n}.png") for n in COHORT_FIGURES})
+    for name in COHORT_FIGURES:
+        for fmt in ("png", "svg"):
+            drawn = (tmp_path / "w1" / f"{name}.{fmt}").read_bytes()
+            assert drawn == (tmp_path / "w2" / f"{name}.{fmt}").read_bytes(), (name, fmt)
+            assert drawn == Path(layout.cohort_figure(name, fmt)).read_bytes(), (name, fmt)

@@ -20,6 +20,8 @@ rule cohort_figures:
         **LAYOUT.cohort_logs("figures"),
     benchmark:
         LAYOUT.cohort_benchmark("cohort_figures")
+    # worker processes, each drawing whole figures
+    threads: 2
     conda:
         "../envs/spikevar.yaml"
     resources:

@@ -147,6 +147,8 @@ def unit_metric_figure(frame: pd.DataFrame, summary: pd.DataFrame, path) -> None
     for ax, metric in zip(axes.ravel(), metrics, strict=True):
         data = frame[["group", metric]].dropna()
         if not data.empty:
+            # seaborn jitters from numpy's global generator: seeded, the same figure each time
+            np.random.seed(0)  # noqa: NPY002
             sns.stripplot(data=data, x="group", y=metric, order=groups, hue="group",
                           palette=colours, size=3, alpha=0.5, jitter=0.25, ax=ax, legend=False)
         rows = summary[summary["metric"] == metric].set_index("group")
@@ -210,27 +212,59 @@ def tau_cv_figure(frame: pd.DataFrame, path) -> None:
             title="Refractory recovery against firing irregularity")
 
 
-def draw_cohort_figures(*, tables: dict[str, pd.DataFrame], frame: pd.DataFrame,
-                        summary: pd.DataFrame, outputs: dict[str, str]) -> None:
-    """Draw every cohort figure into ``outputs`` (PNG paths; SVG written alongside)."""
-    figure_style.apply_style()
-    for path in outputs.values():
-        Path(path).parent.mkdir(parents=True, exist_ok=True)
-    population_fano_figure(tables["population_fano"], outputs["population_fano"])
-    unit_metric_figure(frame, summary, outputs["unit_metrics"])
-    fano_window_figure(tables["count_fano"], tables["units"], outputs["fano_by_window"])
-    tau_cv_figure(frame, outputs["tau_vs_cv"])
-    from spikevar.figures.quality import quality_figure, stability_figure
+#: the figures being drawn, read by forked workers (inherited memory, not copied per task)
+_DRAWING: dict = {}
 
-    quality_figure(tables["units"], tables["recovery"], tables["unit_selection"],
-                   outputs["quality"])
-    stability_figure(tables["unit_blocks"], tables["units"], outputs["stability"])
+
+def _figure_tasks(tables, frame, summary, outputs) -> list:
+    """One call per figure (each draws and saves its PNG and SVG)."""
+    from spikevar.figures.quality import quality_figure, stability_figure
     from spikevar.figures.shared import (
         r_sc_rate_figure,
         shared_structure_figure,
         shared_time_figure,
     )
 
-    r_sc_rate_figure(tables["r_sc_by_rate"], outputs["r_sc_vs_rate"])
-    shared_time_figure(tables["shared_over_time"], outputs["shared_over_time"])
-    shared_structure_figure(tables["population_structure"], outputs["shared_structure"])
+    # the slowest first, so two workers finish together
+    return [
+        lambda: unit_metric_figure(frame, summary, outputs["unit_metrics"]),
+        lambda: population_fano_figure(tables["population_fano"], outputs["population_fano"]),
+        lambda: quality_figure(tables["units"], tables["recovery"], tables["unit_selection"],
+                               outputs["quality"]),
+        lambda: stability_figure(tables["unit_blocks"], tables["units"], outputs["stability"]),
+        lambda: shared_time_figure(tables["shared_over_time"], outputs["shared_over_time"]),
+        lambda: fano_window_figure(tables["count_fano"], tables["units"],
+                                   outputs["fano_by_window"]),
+        lambda: tau_cv_figure(frame, outputs["tau_vs_cv"]),
+        lambda: r_sc_rate_figure(tables["r_sc_by_rate"], outputs["r_sc_vs_rate"]),
+        lambda: shared_structure_figure(tables["population_structure"],
+                                        outputs["shared_structure"]),
+    ]
+
+
+def _draw_task(k: int) -> None:
+    _DRAWING["tasks"][k]()
+
+
+def draw_cohort_figures(*, tables: dict[str, pd.DataFrame], frame: pd.DataFrame,
+                        summary: pd.DataFrame, outputs: dict[str, str],
+                        workers: int = 1) -> None:
+    """Draw every cohort figure into ``outputs`` (PNG paths; SVG written alongside), over
+    ``workers`` forked processes (each figure is drawn whole by one of them; the files are the
+    same for any number)."""
+    figure_style.apply_style()
+    for path in outputs.values():
+        Path(path).parent.mkdir(parents=True, exist_ok=True)
+    tasks = _figure_tasks(tables, frame, summary, outputs)
+    if workers <= 1:
+        for task in tasks:
+            task()
+        return
+    import multiprocessing
+
+    _DRAWING["tasks"] = tasks
+    try:
+        with multiprocessing.get_context("fork").Pool(min(workers, len(tasks))) as pool:
+            pool.map(_draw_task, range(len(tasks)), chunksize=1)
+    finally:
+        _DRAWING.clear()

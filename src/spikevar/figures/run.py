@@ -15,10 +15,12 @@ log = logging.getLogger(__name__)
 FIGURE_COLUMNS = {"unit_blocks": ["session", "group", "unit", "block_start_s", "rate_hz"]}
 
 
-def run_cohort_figures(*, inputs: dict[str, str], outputs: dict[str, str]) -> None:
+def run_cohort_figures(*, inputs: dict[str, str], outputs: dict[str, str],
+                       workers: int = 1) -> None:
+    """Read the cohort tables and draw the figure set over ``workers`` processes."""
     tables = {name: read_frame(path, columns=FIGURE_COLUMNS.get(name))
               for name, path in inputs.items()}
     frame = unit_metric_frame(tables["units"], tables["count_fano"], tables["recovery"])
     draw_cohort_figures(tables=tables, frame=frame, summary=tables["group_summary"],
-                        outputs=outputs)
+                        outputs=outputs, workers=workers)
     log.info("cohort figures written: %s", ", ".join(Path(p).name for p in outputs.values()))

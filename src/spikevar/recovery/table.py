@@ -114,8 +114,11 @@ def units_recovery_rows(units: list[str], trains: list[np.ndarray], *,
 #: below this many spikes a session's units are fitted in one process (starting workers would
 #: cost more than it saves)
 PARALLEL_MIN_SPIKES = 1_000_000
-#: the units handed to a worker at a time
+#: the units fitted together at a time: at most this many units ...
 UNITS_PER_TASK = 32
+#: ... and at most this many spikes (a unit with more is fitted on its own): the working
+#: arrays of the units fitted together stay near 50 MB, whatever the session's size
+SPIKES_PER_TASK = 400_000
 
 #: the session being fitted, read by forked workers (inherited memory, not copied per task)
 _SESSION: dict = {}
@@ -132,25 +135,40 @@ def _fit_units_task(task: tuple[int, int]) -> list[dict]:
     return _fit_units(*task)
 
 
+def unit_tasks(bounds: np.ndarray) -> list[tuple[int, int]]:
+    """Consecutive runs of units ``(first, stop)`` of at most ``UNITS_PER_TASK`` units and
+    ``SPIKES_PER_TASK`` spikes (or one unit), in unit order."""
+    tasks, first = [], 0
+    n = len(bounds) - 1
+    while first < n:
+        stop = first + 1
+        while (stop < n and stop - first < UNITS_PER_TASK
+               and bounds[stop + 1] - bounds[first] <= SPIKES_PER_TASK):
+            stop += 1
+        tasks.append((first, stop))
+        first = stop
+    return tasks
+
+
 def recovery_table(spikes: SpikeArrays, *, span_s: tuple[float, float],
                    settings: RecoverySettings, workers: int = 1) -> pd.DataFrame:
     """Fit every unit of a session (each fit is vectorised over intervals).
 
-    With ``workers > 1`` and at least ``PARALLEL_MIN_SPIKES`` spikes the units are shared out
-    over that many forked processes, ``UNITS_PER_TASK`` at a time, and the rows gathered in
-    unit order: the table is the same whatever the number of workers (each unit's fit depends
-    on its own spikes only).
+    The units are fitted together a run at a time (:func:`unit_tasks`). With ``workers > 1``
+    and at least ``PARALLEL_MIN_SPIKES`` spikes the runs are shared out over that many forked
+    processes and the rows gathered in unit order: the table is the same whatever the number
+    of workers or the runs (each unit's fit depends on its own spikes only).
     """
-    _SESSION.update(spikes=spikes, bounds=spikes.bounds(), span_s=span_s, settings=settings)
+    bounds = spikes.bounds()
+    _SESSION.update(spikes=spikes, bounds=bounds, span_s=span_s, settings=settings)
     try:
-        n = spikes.n_units
-        if workers > 1 and n > 1 and len(spikes.times) >= PARALLEL_MIN_SPIKES:
-            tasks = [(k, min(k + UNITS_PER_TASK, n)) for k in range(0, n, UNITS_PER_TASK)]
+        tasks = unit_tasks(bounds)
+        if workers > 1 and len(tasks) > 1 and len(spikes.times) >= PARALLEL_MIN_SPIKES:
             with multiprocessing.get_context("fork").Pool(min(workers, len(tasks))) as pool:
-                rows = [row for part in pool.map(_fit_units_task, tasks, chunksize=1)
-                        for row in part]
+                parts = pool.map(_fit_units_task, tasks, chunksize=1)
         else:
-            rows = _fit_units(0, n)
+            parts = [_fit_units(*task) for task in tasks]
+        rows = [row for part in parts for row in part]
     finally:
         _SESSION.clear()
     if not rows:
