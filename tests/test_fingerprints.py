@@ -83,3 +83,31 @@ def test_relative_imports_are_followed(tmp_path, monkeypatch):
     fingerprints.direct_imports.cache_clear()
     assert modules_behind("metrics.a") == ["", "metrics", "metrics.a", "metrics.b", "metrics.c"]
     fingerprints.direct_imports.cache_clear()
+
+
+def imports_by_ast(name: str) -> frozenset[str]:
+    """Reference: the spikevar modules a module imports, from its syntax tree."""
+    found = set()
+    for node in ast.walk(ast.parse(fingerprints.module_source(name).read_text())):
+        if isinstance(node, ast.Import):
+            found.update(a.name.removeprefix("spikevar.") for a in node.names
+                         if a.name.startswith("spikevar."))
+        elif isinstance(node, ast.ImportFrom):
+            base = fingerprints._absolute(node.level, node.module or "", name)
+            if base is None:
+                continue
+            for alias in node.names:
+                child = f"{base}.{alias.name}" if base else alias.name
+                found.add(child if fingerprints.module_source(child) is not None else base)
+    return frozenset(m for m in found if fingerprints.module_source(m) is not None)
+
+
+def test_import_statements_read_from_the_text_are_those_of_the_syntax_tree():
+    # the dry run reads imports with a pattern (no parsing); in every module of the package
+    # it must find exactly what Python's own parser finds
+    package = REPO / "src" / "spikevar"
+    names = [".".join(p.relative_to(package).with_suffix("").parts).removesuffix("__init__")
+             .rstrip(".") for p in package.rglob("*.py")]
+    assert len(names) > 50
+    for name in names:
+        assert fingerprints.direct_imports(name) == imports_by_ast(name), name

@@ -1,14 +1,16 @@
 """Fingerprints of the code behind each rule, so that a code change reruns what it affects.
 
 Modules are named by their dotted path inside the package (``"metrics.session"``). Imports are
-read from the source with :mod:`ast` (nothing is imported, so a dry run stays fast) and followed
-through the package; a rule names only the modules its script calls.
+read from the source text by a pattern for import statements (nothing is imported or parsed, so
+a dry run stays fast; ``tests/test_fingerprints.py`` checks that it finds what :mod:`ast` finds
+in every module) and followed through the package; a rule names only the modules its script
+calls.
 """
 
 from __future__ import annotations
 
-import ast
 import hashlib
+import re
 from functools import cache
 from pathlib import Path
 
@@ -25,10 +27,10 @@ def module_source(name: str) -> Path | None:
     return as_package if as_package.is_file() else None
 
 
-def _absolute(node: ast.ImportFrom, importer: str) -> str | None:
-    """The dotted name (inside spikevar) that an ``import from`` statement refers to."""
-    if node.level == 0:
-        module = node.module or ""
+def _absolute(level: int, module: str, importer: str) -> str | None:
+    """The dotted name (inside spikevar) that ``from <level dots><module> import`` in module
+    ``importer`` refers to."""
+    if level == 0:
         if module == "spikevar":
             return ""
         return module.removeprefix("spikevar.") if module.startswith("spikevar.") else None
@@ -36,25 +38,38 @@ def _absolute(node: ast.ImportFrom, importer: str) -> str | None:
     source = module_source(importer)
     is_package = source is not None and source.name == "__init__.py"
     base = here if is_package else here[:-1]
-    base = base[: len(base) - (node.level - 1)]
-    return ".".join([*base, *([node.module] if node.module else [])])
+    base = base[: len(base) - (level - 1)]
+    return ".".join([*base, *([module] if module else [])])
+
+
+#: ``from X import a, b`` or ``from X import (a,\n b)`` at the start of a line (any indent)
+_FROM_IMPORT = re.compile(r"^[ \t]*from[ \t]+(\.*)([\w.]*)[ \t]+import[ \t]+(\([^)]*\)|[^\n]*)",
+                          re.MULTILINE)
+#: ``import X, Y as Z`` at the start of a line
+_IMPORT = re.compile(r"^[ \t]*import[ \t]+([^\n]*)", re.MULTILINE)
+
+
+def _names(clause: str) -> list[str]:
+    """The imported names of an import clause (parentheses, comments and ``as`` removed)."""
+    clause = re.sub(r"#[^\n]*", "", clause).strip("()")
+    return [part.split()[0] for part in clause.replace("\n", " ").split(",") if part.strip()]
 
 
 @cache
 def direct_imports(name: str) -> frozenset[str]:
     """The ``spikevar`` modules that module ``name`` imports (read from its source, not run)."""
+    text = module_source(name).read_text()
     found: set[str] = set()
-    for node in ast.walk(ast.parse(module_source(name).read_text())):
-        if isinstance(node, ast.Import):
-            found.update(a.name.removeprefix("spikevar.") for a in node.names
-                         if a.name.startswith("spikevar."))
-        elif isinstance(node, ast.ImportFrom):
-            base = _absolute(node, name)
-            if base is None:
-                continue
-            for alias in node.names:  # from spikevar.x import y: y may be a module of x
-                child = f"{base}.{alias.name}" if base else alias.name
-                found.add(child if module_source(child) is not None else base)
+    for clause in _IMPORT.findall(text):
+        found.update(n.removeprefix("spikevar.") for n in _names(clause)
+                     if n.startswith("spikevar."))
+    for dots, module, clause in _FROM_IMPORT.findall(text):
+        base = _absolute(len(dots), module, name)
+        if base is None:
+            continue
+        for alias in _names(clause):  # from spikevar.x import y: y may be a module of x
+            child = f"{base}.{alias}" if base else alias
+            found.add(child if module_source(child) is not None else base)
     return frozenset(m for m in found if module_source(m) is not None)
 
 
