@@ -58,6 +58,19 @@ def snakemake(work: Path, *args: str) -> float:
     return time.perf_counter() - t0
 
 
+def snakemake_floor(work: Path) -> float:
+    """Seconds of a dry run of an empty workflow in the same environment (the start-up every
+    Snakemake command pays: its imports and the executor plugins installed)."""
+    empty = work / "empty"
+    empty.mkdir(exist_ok=True)
+    (empty / "Snakefile").write_text("rule all:\n    input: []\n")
+    t0 = time.perf_counter()
+    subprocess.run([sys.executable, "-m", "snakemake", "-s", str(empty / "Snakefile"),
+                    "--directory", str(empty), "--cores", "1", "-n"],
+                   check=True, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
+    return time.perf_counter() - t0
+
+
 def job_seconds_by_rule(folder: Path) -> None:
     """Where the run's time goes: seconds of every job (Snakemake's benchmark files) by rule."""
     seconds: dict[str, list[float]] = {}
@@ -96,7 +109,8 @@ def main():
     print(f"full run: {full:.1f} s for {n_jobs} jobs on {os.cpu_count()} cores "
           f"({full / n_jobs * (os.cpu_count() or 2):.2f} core-seconds per job)")
     dry = snakemake(work, "-n")
-    print(f"dry run of the finished cohort: {dry:.2f} s")
+    print(f"dry run of the finished cohort: {dry:.2f} s ({snakemake_floor(work):.2f} s of it is "
+          "Snakemake's own start-up: the dry run of a workflow with no rules)")
     target = work / "cohort" / "s0000.parquet"
     frame = pd.read_parquet(target)
     frame.sample(frac=1.0, random_state=1).to_parquet(target)
