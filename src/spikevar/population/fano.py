@@ -84,29 +84,55 @@ def _slope_of(w, w_ratio, *, axis: int = 0, keep=None):
         return np.where(total > 0, w_ratio.sum(axis=axis) / total, np.nan)
 
 
+@dataclass
+class MatchPlan:
+    """What :func:`mean_match_mask` needs that does not change between matchings of one series
+    (its bins, histograms and common distribution): worked out once, used by every repeat."""
+
+    #: (windows, units): each unit's bin as a float, inf where unusable (the key without U)
+    base: np.ndarray
+    #: (windows, bins): the position in a window's sorted keys of each bin's last kept unit
+    last: np.ndarray
+    #: (bins,): bins that keep any unit
+    keeps_any: np.ndarray
+    #: (windows, units): each unit's (window, bin) cell as an index into the thresholds
+    cell: np.ndarray
+
+    @classmethod
+    def of(cls, bins: np.ndarray, hist: np.ndarray, common: np.ndarray) -> MatchPlan:
+        n_units, n_win = bins.shape
+        n_bins = hist.shape[1]
+        bins_t = bins.T
+        usable = bins_t >= 0
+        first = np.concatenate([np.zeros((n_win, 1), dtype=np.int64),
+                                np.cumsum(hist, axis=1)[:, :-1]], axis=1)  # (windows, bins)
+        return cls(base=np.where(usable, bins_t, np.inf),
+                   last=np.clip(first + common[None, :] - 1, 0, max(n_units - 1, 0)),
+                   keeps_any=common > 0,
+                   cell=np.maximum(bins_t, 0) + n_bins * np.arange(n_win)[:, None])
+
+
 def mean_match_mask(bins: np.ndarray, hist: np.ndarray, common: np.ndarray,
-                    rng: np.random.Generator) -> np.ndarray:
+                    rng: np.random.Generator, plan: MatchPlan | None = None) -> np.ndarray:
     """Units kept at each window so that every window's histogram equals ``common``.
 
     ``bins``: (units, windows) bin index, -1 for unusable; ``hist``: (windows, bins) counts,
     each at least ``common``. Within each (window, bin) the kept units are a uniformly random
     subset: each unit gets the key ``bin + U(0, 1)``, and a unit is kept when its key is at
     most the ``common[bin]``-th smallest key of its bin (the first ``common[bin]`` of the bin
-    in key order). One sort of the keys per window, no argsort and no scatter back.
+    in key order). One sort of the keys per window, no argsort and no scatter back. ``plan``:
+    :meth:`MatchPlan.of` the same arguments, when the series is matched more than once.
     """
     n_units, n_win = bins.shape
+    plan = MatchPlan.of(bins, hist, common) if plan is None else plan
     u = rng.random((n_units, n_win))
-    usable = bins.T >= 0  # (windows, units): each window's keys contiguous for the sort
-    key = np.where(usable, bins.T + u.T, np.inf)
+    key = plan.base + u.T  # (windows, units): each window's keys contiguous for the sort
     sorted_key = np.sort(key, axis=1)
-    first = np.concatenate([np.zeros((n_win, 1), dtype=np.int64),
-                            np.cumsum(hist, axis=1)[:, :-1]], axis=1)  # (windows, bins)
-    last = np.clip(first + common[None, :] - 1, 0, max(n_units - 1, 0))
-    threshold = np.where(common[None, :] > 0,
-                         np.take_along_axis(sorted_key, last, axis=1) if n_units else -np.inf,
-                         -np.inf)
-    bin_safe = np.maximum(bins.T, 0)
-    keep = usable & (key <= np.take_along_axis(threshold, bin_safe, axis=1))
+    threshold = np.where(plan.keeps_any[None, :],
+                         np.take_along_axis(sorted_key, plan.last, axis=1) if n_units
+                         else -np.inf, -np.inf)
+    # an unusable unit's key is inf, above every threshold
+    keep = key <= threshold.ravel()[plan.cell]
     return keep.T
 
 
@@ -160,8 +186,9 @@ def estimate(series: list[Series], scopes: list[int], edges: np.ndarray, *, n_re
     for s, b, hist, scope in zip(series, bins, hists, scopes, strict=True):
         slopes, kept_means = [], []
         w, w_ratio = _slope_terms(s.mean, s.var, s.n_trials)  # the same in every repeat
+        plan = MatchPlan.of(b, hist, common[scope])
         for _ in range(n_repeats):
-            keep = mean_match_mask(b, hist, common[scope], rng)
+            keep = mean_match_mask(b, hist, common[scope], rng, plan)
             kept_mean = np.where(keep, s.mean, np.nan)
             slopes.append(_slope_of(w, w_ratio, keep=keep))
             with warnings.catch_warnings():
