@@ -47,6 +47,8 @@ lint: $(STAMP)
 workflow-lint: $(STAMP)
 	$(PY) -m spikevar.synth.demo --out .lint-cohort --seed 1 >/dev/null
 	$(PY) -m snakemake --lint --config sessions=.lint-cohort/sessions.tsv results=.lint-results
+	$(PY) -m snakemake --lint --config sessions=.lint-cohort/sessions.tsv results=.lint-results \
+		session_jobs=whole_session
 
 unit: $(STAMP)
 	$(PY) -m pytest -n $(CORES) -q

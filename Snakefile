@@ -29,11 +29,24 @@ validate(config, str(REPO / "workflow" / "schemas" / "config.schema.yaml"))
 
 
 include: "workflow/rules/common.smk"
-include: "workflow/rules/ingest.smk"
-include: "workflow/rules/metrics.smk"
-include: "workflow/rules/selection.smk"
-include: "workflow/rules/shared.smk"
-include: "workflow/rules/recovery.smk"
+
+
+# the per-session stages: a job each (a setting reruns only the stages that read it), or one
+# job per session (for many small sessions); config session_jobs
+if config["session_jobs"] == "by_stage":
+
+    include: "workflow/rules/ingest.smk"
+    include: "workflow/rules/metrics.smk"
+    include: "workflow/rules/selection.smk"
+    include: "workflow/rules/shared.smk"
+    include: "workflow/rules/recovery.smk"
+
+else:
+
+    include: "workflow/rules/whole_session.smk"
+
+
+include: "workflow/rules/unit_labels.smk"
 include: "workflow/rules/cohort.smk"
 include: "workflow/rules/statistics.smk"
 include: "workflow/rules/figures.smk"

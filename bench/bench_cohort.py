@@ -9,7 +9,7 @@ The per-session recovery figures are off (config figures.session_recovery: false
 the README recommends for large cohorts) unless --session-figures is given.
 
 Run: .venv/bin/python bench/bench_cohort.py [--sessions 200] [--units 100] [--duration 120]
-     [--session-figures]
+     [--session-figures] [--session-jobs whole_session]
 """
 
 import argparse
@@ -91,6 +91,8 @@ def main():
     parser.add_argument("--work", default="bench/out/cohort")
     parser.add_argument("--session-figures", action="store_true",
                         help="also draw the per-session recovery figures (config default)")
+    parser.add_argument("--session-jobs", default="by_stage", choices=["by_stage", "whole_session"],
+                        help="config session_jobs: a job per stage or one job per session")
     args = parser.parse_args()
     work = Path(args.work).resolve()
     if work.exists():
@@ -101,11 +103,13 @@ def main():
     override = "recovery:\n  tau_interval: false\n"
     if not args.session_figures:  # the large-cohort setting the README recommends
         override += "figures:\n  session_recovery: false\n"
+    override += f"session_jobs: {args.session_jobs}\n"
     (work / "override.yaml").write_text(override)
     full = snakemake(work)
     n_jobs = len(list((work / "out" / "benchmarks").rglob("*.tsv")))
     print(f"cohort: {args.sessions} sessions x {args.units} units, {args.duration:.0f} s each; "
-          f"per-session recovery figures {'on' if args.session_figures else 'off'}")
+          f"per-session recovery figures {'on' if args.session_figures else 'off'}; "
+          f"session_jobs: {args.session_jobs}")
     print(f"full run: {full:.1f} s for {n_jobs} jobs on {os.cpu_count()} cores "
           f"({full / n_jobs * (os.cpu_count() or 2):.2f} core-seconds per job)")
     dry = snakemake(work, "-n")

@@ -13,17 +13,8 @@ for name in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS"):
 
 sys.path.insert(0, str(Path(snakemake.scriptdir).parent / "src"))  # noqa: F821
 
-from spikevar.base.settings import settings_from  # noqa: E402
 from spikevar.pipeline.jobs import rule_job  # noqa: E402
-from spikevar.recovery.settings import RecoverySettings  # noqa: E402
-from spikevar.recovery.table import run_session_recovery  # noqa: E402
+from spikevar.pipeline.stages import StageJob, recovery  # noqa: E402
 
 with rule_job(snakemake, step="recovery") as sm:  # noqa: F821
-    run_session_recovery(
-        session=sm.wildcards.session,
-        spikes_path=sm.input.spikes,
-        output=sm.output[0],
-        settings=settings_from(RecoverySettings, sm.params.recovery, section="recovery"),
-        span=sm.params.span,
-        workers=sm.threads,
-    )
+    recovery.run(StageJob.of(sm))

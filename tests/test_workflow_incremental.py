@@ -19,9 +19,10 @@ COHORT_RULES = {"cohort_table", "cohort_dataset", "population_fano", "group_summ
                 "shared_statistics", "handoff", "cohort_figures", "report_pages"}
 
 
-def planned_jobs(workdir, sheet, *extra, snakefile=None):
-    """(rule, session or None) of every job a dry run would execute."""
-    args = ["-n", *extra, "--config", f"sessions={sheet}", "results=out"]
+def planned_jobs(workdir, sheet, *extra, snakefile=None, config=()):
+    """(rule, session or None) of every job a dry run would execute (``config``: more
+    ``key=value`` settings, later ones winning)."""
+    args = ["-n", *extra, "--config", f"sessions={sheet}", "results=out", *config]
     if snakefile is not None:
         args = ["-s", str(snakefile), *args]
     text = run_snakemake(workdir, *args).stdout

@@ -29,3 +29,34 @@ rule cohort_figures:
         runtime=20,
     script:
         "../../scripts/cohort_figures.py"
+
+
+# The per-session recovery figure (optional: config figures.session_recovery).
+rule session_recovery_figure:
+    input:
+        spikes=LAYOUT.session_table("{session}", "spikes"),
+        recovery=LAYOUT.session_table("{session}", "recovery"),
+    output:
+        png=report(
+            LAYOUT.recovery_figure("{session}", "png"),
+            caption="../report/session_recovery.rst",
+            category=RECOVERY_FIGURE_CATEGORY,
+            subcategory="{session}",
+        ),
+        svg=LAYOUT.recovery_figure("{session}", "svg"),
+    params:
+        max_units=config["figures"]["max_units_per_session"],
+        code=code_fingerprint("figures.recovery", "figures.settings", "base.settings"),
+    log:
+        **LAYOUT.session_logs("{session}", "recovery_figure"),
+    benchmark:
+        LAYOUT.session_benchmark("{session}", "session_recovery_figure")
+    conda:
+        "../envs/spikevar.yaml"
+    group:
+        "session"
+    resources:
+        mem_mb=2000,
+        runtime=20,
+    script:
+        "../../scripts/session_recovery_figure.py"

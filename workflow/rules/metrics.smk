@@ -10,7 +10,7 @@ rule session_metrics:
         metrics=config["metrics"],
         stability=config["stability"],
         span=lambda w: declared_span(SHEET, w.session),
-        code=code_fingerprint("metrics.session", "base.settings"),
+        code=code_fingerprint("pipeline.stages.metrics"),
     log:
         **LAYOUT.session_logs("{session}", "metrics"),
     benchmark:
@@ -32,14 +32,14 @@ rule session_timecourse:
     input:
         **{t: LAYOUT.session_table("{session}", t) for t in NORMALISED_TABLES},
     output:
-        LAYOUT.session_table("{session}", "fano_timecourse"),
+        fano_timecourse=LAYOUT.session_table("{session}", "fano_timecourse"),
     params:
         factors=condition_factors(config),
         timecourse=config["timecourse"],
         alignments=config["alignments"],
         event_time_column=config["columns"]["event_time"],
         span=lambda w: declared_span(SHEET, w.session),
-        code=code_fingerprint("metrics.session", "base.settings"),
+        code=code_fingerprint("pipeline.stages.timecourse"),
     log:
         **LAYOUT.session_logs("{session}", "timecourse"),
     benchmark:

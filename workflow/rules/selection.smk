@@ -9,10 +9,10 @@ rule session_selection:
         units=LAYOUT.session_table("{session}", "units"),
         events=LAYOUT.session_table("{session}", "events"),
     output:
-        LAYOUT.session_table("{session}", "unit_selection"),
+        unit_selection=LAYOUT.session_table("{session}", "unit_selection"),
     params:
         inclusion=config["inclusion"],
-        code=code_fingerprint("metrics.run_selection", "base.settings"),
+        code=code_fingerprint("pipeline.stages.selection"),
     log:
         **LAYOUT.session_logs("{session}", "selection"),
     benchmark:

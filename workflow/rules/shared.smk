@@ -18,7 +18,7 @@ rule session_shared:
         event_time_column=config["columns"]["event_time"],
         seed=config["seed"],
         span=lambda w: declared_span(SHEET, w.session),
-        code=code_fingerprint("population.run_shared", "base.settings"),
+        code=code_fingerprint("pipeline.stages.shared"),
     log:
         **LAYOUT.session_logs("{session}", "shared"),
     benchmark:

@@ -30,6 +30,11 @@ NOT_RUN = "the step did not run (an earlier step failed or the run was interrupt
 
 def session_failure(layout: ResultsLayout, session: str) -> dict | None:
     """The first failed step of a session (from its failure record), or None when complete."""
+    # one job ran every stage (config session_jobs: whole_session): its record has the reason
+    record = read_failure_record(failure_record_path(layout.session_log(session,
+                                                                        "whole_session")))
+    if record is not None:
+        return {"session": session, "rule": "whole_session", "reason": record["reason"]}
     for rule, step, first_output in SESSION_STEPS:
         record = read_failure_record(failure_record_path(layout.session_log(session, step)))
         if record is not None:

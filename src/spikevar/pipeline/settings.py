@@ -42,7 +42,7 @@ SECTIONS = {
 }
 #: top-level keys that are single values, not sections
 TOP_LEVEL = ("sessions", "results", "time_unit", "sampling_rate_hz", "seed", "alignments",
-             "epochs")
+             "epochs", "session_jobs")
 
 
 def check_config(config: Mapping) -> dict:
