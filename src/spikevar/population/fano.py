@@ -167,8 +167,12 @@ class Series:
 
 
 def estimate(series: list[Series], scopes: list[int], edges: np.ndarray, *, n_repeats: int,
-             rng: np.random.Generator) -> list[dict]:
-    """Regression (weighted and not) and mean-matched slopes of every series, every window."""
+             rng: np.random.Generator, details: bool = True) -> list[dict]:
+    """Regression (weighted and not) and mean-matched slopes of every series, every window.
+
+    ``details=False`` (the subject resamples, which use only ``regression`` and ``matched``)
+    leaves out the unweighted slope and the kept units' mean count; the random numbers drawn
+    and the slopes are the same either way."""
     n_bins = len(edges) - 1
     bins, hists = [], []
     for s in series:
@@ -189,17 +193,25 @@ def estimate(series: list[Series], scopes: list[int], edges: np.ndarray, *, n_re
         plan = MatchPlan.of(b, hist, common[scope])
         for _ in range(n_repeats):
             keep = mean_match_mask(b, hist, common[scope], rng, plan)
-            kept_mean = np.where(keep, s.mean, np.nan)
             slopes.append(_slope_of(w, w_ratio, keep=keep))
-            with warnings.catch_warnings():
-                warnings.simplefilter("ignore", RuntimeWarning)  # windows with none kept
-                kept_means.append(np.nanmean(kept_mean, axis=0))
-        out.append({"regression": weighted_slope(s.mean, s.var, s.n_trials),
-                    "unweighted": slope_through_origin(s.mean, s.var, axis=0),
-                    "matched": np.mean(slopes, axis=0),
-                    "kept_mean": np.mean(kept_means, axis=0),
-                    "kept": np.full(b.shape[1], int(common[scope].sum()))})
+            if details:
+                kept_means.append(_kept_mean(s.mean, keep))
+        result = {"regression": weighted_slope(s.mean, s.var, s.n_trials),
+                  "matched": np.mean(slopes, axis=0)}
+        if details:
+            result.update(unweighted=slope_through_origin(s.mean, s.var, axis=0),
+                          kept_mean=np.mean(kept_means, axis=0),
+                          kept=np.full(b.shape[1], int(common[scope].sum())))
+        out.append(result)
     return out
+
+
+def _kept_mean(mean: np.ndarray, keep: np.ndarray) -> np.ndarray:
+    """Mean over the kept units of each window (NaN where none is kept): ``np.nanmean`` of
+    the kept means, summed in the same order, without its copy and NaN mask. A kept unit's
+    mean is finite (unusable units are never kept)."""
+    with np.errstate(invalid="ignore", divide="ignore"):  # windows with none kept
+        return np.where(keep, mean, 0.0).sum(axis=0) / keep.sum(axis=0)
 
 
 def few_cluster_interval(estimate: np.ndarray, replicates: np.ndarray,
@@ -271,7 +283,8 @@ def _estimate_resamples(first: int, stop: int) -> tuple[np.ndarray, np.ndarray]:
                             s.var[draws[s.group][b]], s.n_trials[draws[s.group][b]])
                      for s in series]
         for k, result in enumerate(estimate(resampled, job["scopes"], job["edges"],
-                                            n_repeats=job["n_repeats"], rng=rng)):
+                                            n_repeats=job["n_repeats"], rng=rng,
+                                            details=False)):
             reg[b - first, k] = result["regression"]
             matched[b - first, k] = result["matched"]
     return reg, matched
