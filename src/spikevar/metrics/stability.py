@@ -21,7 +21,6 @@ from __future__ import annotations
 
 import numpy as np
 import pandas as pd
-from scipy.special import chdtrc
 
 from spikevar.base.spike_arrays import SpikeArrays
 from spikevar.metrics.segments import unit_blocks
@@ -161,6 +160,10 @@ def _drift_test(labels: np.ndarray, counts: np.ndarray, n_isi: np.ndarray, cv_sq
     with np.errstate(invalid="ignore", divide="ignore"):
         phi = (weight * np.nan_to_num(cv_sq)).sum(axis=1) / weight.sum(axis=1)
         statistic = ((counts - expected) ** 2 / expected).sum(axis=1) / phi
+    # imported here: scipy.special costs the metric, time-course and shared jobs 0.15 s at
+    # start-up, and only this line uses it
+    from scipy.special import chdtrc
+
     p = chdtrc(max(n_tested - 1, 1), statistic)
     reason = np.full(len(labels), "", dtype=object)
     low = (expected.min(axis=1) if n_tested else np.zeros(len(labels))) < MIN_BLOCK_COUNT
