@@ -155,3 +155,32 @@ def test_resamples_over_two_workers_give_the_same_table_to_the_bit():
     two = population_fano_table(tc, settings=settings, seed=4, workers=2)
     assert one["ci_lo"].notna().all()
     pd.testing.assert_frame_equal(one, two)
+
+
+def test_resamples_leave_out_only_what_they_do_not_report():
+    """estimate(details=False), as the subject resamples call it, gives the same slopes from
+    the same random numbers; the kept units' mean count equals np.nanmean of the kept means to
+    the bit, with NaN where a window keeps no unit."""
+    from spikevar.population.fano import Series, _kept_mean, bin_edges, estimate
+
+    rng = np.random.default_rng(11)
+    mean = rng.gamma(2.0, 1.0, size=(300, 6))
+    mean[rng.random(mean.shape) < 0.05] = np.nan
+    var = mean * rng.uniform(0.5, 2.0, size=mean.shape)
+    series = [Series("g", c, "a", mean[i::2], var[i::2], np.full_like(mean[i::2], 20.0))
+              for i, c in enumerate(["x", "y"])]
+    edges = bin_edges([s.mean for s in series], 10)
+    full = estimate(series, [0, 0], edges, n_repeats=5, rng=np.random.default_rng(3))
+    lean = estimate(series, [0, 0], edges, n_repeats=5, rng=np.random.default_rng(3),
+                    details=False)
+    for f, lean_one in zip(full, lean, strict=True):
+        assert set(lean_one) == {"regression", "matched"}
+        np.testing.assert_array_equal(f["matched"], lean_one["matched"])
+        np.testing.assert_array_equal(f["regression"], lean_one["regression"])
+    keep = rng.random(mean.shape) < 0.4
+    keep &= np.isfinite(mean)
+    keep[:, 2] = False  # a window with no kept unit
+    with np.errstate(invalid="ignore"), pytest.warns(RuntimeWarning):
+        expected = np.nanmean(np.where(keep, mean, np.nan), axis=0)
+    np.testing.assert_array_equal(_kept_mean(mean, keep), expected)
+    assert np.isnan(_kept_mean(mean, keep)[2])
