@@ -161,7 +161,7 @@ def test_resamples_leave_out_only_what_they_do_not_report():
     """estimate(details=False), as the subject resamples call it, gives the same slopes from
     the same random numbers; the kept units' mean count equals np.nanmean of the kept means to
     the bit, with NaN where a window keeps no unit."""
-    from spikevar.population.fano import Series, _kept_mean, bin_edges, estimate
+    from spikevar.population.fano import Series, bin_edges, estimate, mean_of_kept
 
     rng = np.random.default_rng(11)
     mean = rng.gamma(2.0, 1.0, size=(300, 6))
@@ -182,5 +182,5 @@ def test_resamples_leave_out_only_what_they_do_not_report():
     keep[:, 2] = False  # a window with no kept unit
     with np.errstate(invalid="ignore"), pytest.warns(RuntimeWarning):
         expected = np.nanmean(np.where(keep, mean, np.nan), axis=0)
-    np.testing.assert_array_equal(_kept_mean(mean, keep), expected)
-    assert np.isnan(_kept_mean(mean, keep)[2])
+    np.testing.assert_array_equal(mean_of_kept(mean, keep), expected)
+    assert np.isnan(mean_of_kept(mean, keep)[2])

@@ -195,7 +195,7 @@ def estimate(series: list[Series], scopes: list[int], edges: np.ndarray, *, n_re
             keep = mean_match_mask(b, hist, common[scope], rng, plan)
             slopes.append(_slope_of(w, w_ratio, keep=keep))
             if details:
-                kept_means.append(_kept_mean(s.mean, keep))
+                kept_means.append(mean_of_kept(s.mean, keep))
         result = {"regression": weighted_slope(s.mean, s.var, s.n_trials),
                   "matched": np.mean(slopes, axis=0)}
         if details:
@@ -206,7 +206,7 @@ def estimate(series: list[Series], scopes: list[int], edges: np.ndarray, *, n_re
     return out
 
 
-def _kept_mean(mean: np.ndarray, keep: np.ndarray) -> np.ndarray:
+def mean_of_kept(mean: np.ndarray, keep: np.ndarray) -> np.ndarray:
     """Mean over the kept units of each window (NaN where none is kept): ``np.nanmean`` of
     the kept means, summed in the same order, without its copy and NaN mask. A kept unit's
     mean is finite (unusable units are never kept)."""
