@@ -118,6 +118,36 @@ def test_mean_match_mask_keeps_the_common_distribution():
     assert not keep[bins < 0].any()
 
 
+def test_bucket_selection_keeps_the_units_a_full_sort_keeps():
+    """The threshold found by counting units in slices of [0, 1) is the common[bin]-th
+    smallest key of each cell, as sorting every cell's keys gives: cells larger and smaller
+    than the slice count, cells that keep all, none or one unit, unusable units."""
+    from spikevar.population.fano import SELECT_BUCKETS, mean_match_mask
+
+    rng = np.random.default_rng(11)
+    for case in range(60):
+        n_units = int(rng.integers(0, 8 * SELECT_BUCKETS)) if case % 4 else int(rng.integers(3))
+        n_win, n_bins = int(rng.integers(1, 6)), int(rng.integers(1, 8))
+        bins = rng.integers(-1, n_bins, size=(n_units, n_win))
+        if case % 3 == 0:  # one crowded bin: many units share each threshold slice
+            bins = np.where(rng.random(bins.shape) < 0.8, 0, bins)
+        hist = np.zeros((n_win, n_bins), dtype=np.int64)
+        for w in range(n_win):
+            hist[w] = np.bincount(bins[:, w][bins[:, w] >= 0], minlength=n_bins)
+        common = (hist.min(axis=0) * rng.uniform(0, 1.3, n_bins)).astype(int)
+        common = np.minimum(common, hist.min(axis=0))
+        seed = int(rng.integers(2**31))
+        keep = mean_match_mask(bins, hist, common, np.random.default_rng(seed))
+        u = np.random.default_rng(seed).random((n_units, n_win))  # the uniforms it drew
+        expected = np.zeros_like(keep)
+        for w in range(n_win):
+            for b in range(n_bins):
+                members = np.flatnonzero(bins[:, w] == b)
+                chosen = members[np.argsort(b + u[members, w], kind="stable")][:common[b]]
+                expected[chosen, w] = True
+        np.testing.assert_array_equal(keep, expected, err_msg=f"case {case}")
+
+
 def test_matching_reports_how_many_units_it_kept_and_their_mean_count():
     """Two rate levels that swap between windows: the common distribution keeps only the units
     whose rate is alike in both windows; with too few kept, no mean-matched value is given."""

@@ -78,10 +78,16 @@ def _slope_terms(mean, var, n_trials):
 def _slope_of(w, w_ratio, *, axis: int = 0, keep=None):
     """The weighted slope from its terms, over the units in ``keep`` (all when None)."""
     if keep is not None:
-        w, w_ratio = np.where(keep, w, 0.0), np.where(keep, w_ratio, 0.0)
+        w, w_ratio = keep * w, keep * w_ratio  # the terms are finite: 0 where left out
     total = w.sum(axis=axis)
     with np.errstate(invalid="ignore", divide="ignore"):
         return np.where(total > 0, w_ratio.sum(axis=axis) / total, np.nan)
+
+
+#: buckets per (window, bin) cell of the selection in :func:`mean_match_mask`: each unit's
+#: uniform falls in one of this many equal slices of [0, 1), and only the units in the slice
+#: that holds a cell's threshold are ordered one by one
+SELECT_BUCKETS = 256
 
 
 @dataclass
@@ -91,25 +97,23 @@ class MatchPlan:
 
     #: (windows, units): each unit's bin as a float, inf where unusable (the key without U)
     base: np.ndarray
-    #: (windows, bins): the position in a window's sorted keys of each bin's last kept unit
-    last: np.ndarray
-    #: (bins,): bins that keep any unit
-    keeps_any: np.ndarray
     #: (windows, units): each unit's (window, bin) cell as an index into the thresholds
     cell: np.ndarray
+    #: (windows, units): the first bucket of each unit's cell in the bucket counts; unusable
+    #: units are counted in an extra cell after the last, which nothing reads
+    first_bucket: np.ndarray
+    #: (cells,): how many units each (window, bin) cell keeps (the common count of its bin)
+    keep_count: np.ndarray
 
     @classmethod
     def of(cls, bins: np.ndarray, hist: np.ndarray, common: np.ndarray) -> MatchPlan:
-        n_units, n_win = bins.shape
-        n_bins = hist.shape[1]
+        n_win, n_bins = hist.shape
         bins_t = bins.T
         usable = bins_t >= 0
-        first = np.concatenate([np.zeros((n_win, 1), dtype=np.int64),
-                                np.cumsum(hist, axis=1)[:, :-1]], axis=1)  # (windows, bins)
-        return cls(base=np.where(usable, bins_t, np.inf),
-                   last=np.clip(first + common[None, :] - 1, 0, max(n_units - 1, 0)),
-                   keeps_any=common > 0,
-                   cell=np.maximum(bins_t, 0) + n_bins * np.arange(n_win)[:, None])
+        cell = np.maximum(bins_t, 0) + n_bins * np.arange(n_win)[:, None]
+        return cls(base=np.where(usable, bins_t, np.inf), cell=cell,
+                   first_bucket=np.where(usable, cell, n_win * n_bins) * SELECT_BUCKETS,
+                   keep_count=np.tile(np.asarray(common, dtype=np.int64), n_win))
 
 
 def mean_match_mask(bins: np.ndarray, hist: np.ndarray, common: np.ndarray,
@@ -117,22 +121,46 @@ def mean_match_mask(bins: np.ndarray, hist: np.ndarray, common: np.ndarray,
     """Units kept at each window so that every window's histogram equals ``common``.
 
     ``bins``: (units, windows) bin index, -1 for unusable; ``hist``: (windows, bins) counts,
-    each at least ``common``. Within each (window, bin) the kept units are a uniformly random
-    subset: each unit gets the key ``bin + U(0, 1)``, and a unit is kept when its key is at
-    most the ``common[bin]``-th smallest key of its bin (the first ``common[bin]`` of the bin
-    in key order). One sort of the keys per window, no argsort and no scatter back. ``plan``:
-    :meth:`MatchPlan.of` the same arguments, when the series is matched more than once.
+    each at least ``common``. Within each (window, bin) cell the kept units are a uniformly
+    random subset: each unit gets the key ``bin + U(0, 1)``, and a unit is kept when its key
+    is at most the ``common[bin]``-th smallest key of its cell. ``plan``: :meth:`MatchPlan.of`
+    the same arguments, when the series is matched more than once.
+
+    The threshold of every cell is found without sorting the keys (a bucket selection): the
+    units are counted by cell and by which of ``SELECT_BUCKETS`` equal slices of [0, 1) their
+    U falls in; the slice where a cell's running count reaches its keep count holds the
+    threshold, and only the units of those slices (about one in ``SELECT_BUCKETS``) are put
+    in order. The key is increasing in U within a cell, so this is the same threshold as a
+    sort of the keys gives.
     """
     n_units, n_win = bins.shape
     plan = MatchPlan.of(bins, hist, common) if plan is None else plan
-    u = rng.random((n_units, n_win))
-    key = plan.base + u.T  # (windows, units): each window's keys contiguous for the sort
-    sorted_key = np.sort(key, axis=1)
-    threshold = np.where(plan.keeps_any[None, :],
-                         np.take_along_axis(sorted_key, plan.last, axis=1) if n_units
-                         else -np.inf, -np.inf)
+    u_t = rng.random((n_units, n_win)).T  # (windows, units), each window's units together
+    key = plan.base + u_t
+    n_cells = len(plan.keep_count)
+    bucket = (u_t * SELECT_BUCKETS).astype(np.intp)
+    at = plan.first_bucket + bucket
+    counts = np.bincount(at.ravel(), minlength=(n_cells + 1) * SELECT_BUCKETS)
+    running = counts[:n_cells * SELECT_BUCKETS].reshape(n_cells, SELECT_BUCKETS).cumsum(axis=1)
+    need = plan.keep_count
+    # the slice holding each cell's need-th smallest key, and how many keys lie below it
+    slice_of = (running < need[:, None]).sum(axis=1)
+    below = np.where(slice_of > 0,
+                     running[np.arange(n_cells), np.maximum(slice_of - 1, 0)], 0)
+    # the units in each cell's threshold slice (none for cells that keep nothing; unusable
+    # units are counted past the last cell, so they never match)
+    target = np.where(need > 0, slice_of + SELECT_BUCKETS * np.arange(n_cells), -1)
+    in_slice = at == target[plan.cell]
+    cand_cell, cand_key = plan.cell[in_slice], key[in_slice]
+    order = np.lexsort((cand_key, cand_cell))
+    cand_cell, cand_key = cand_cell[order], cand_key[order]
+    threshold = np.full(n_cells, -np.inf)
+    chosen = need > 0
+    if chosen.any():
+        start = np.searchsorted(cand_cell, np.flatnonzero(chosen))
+        threshold[chosen] = cand_key[start + (need - below)[chosen] - 1]
     # an unusable unit's key is inf, above every threshold
-    keep = key <= threshold.ravel()[plan.cell]
+    keep = key <= threshold[plan.cell]
     return keep.T
 
 
