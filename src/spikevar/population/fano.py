@@ -55,19 +55,10 @@ def slope_through_origin(mean: np.ndarray, var: np.ndarray, axis: int = -1) -> n
         return np.where(den > 0, num / den, np.nan)
 
 
-def weighted_slope(mean: np.ndarray, var: np.ndarray, n_trials: np.ndarray,
-                   axis: int = 0) -> np.ndarray:
-    """Slope through the origin weighted by ``(n_trials - 1) / mean^2`` (see module notes).
-
-    Units with a zero mean count carry no information on the ratio and are left out.
-    """
-    w, w_ratio = _slope_terms(mean, var, n_trials)
-    return _slope_of(w, w_ratio, axis=axis)
-
-
 def _slope_terms(mean, var, n_trials):
-    """The weights ``n_trials - 1`` and weight x (var / mean) of the weighted slope, 0 where
-    a unit is left out."""
+    """The slope through the origin weighted by ``(n_trials - 1) / mean^2`` (see the module
+    notes) as its terms: the weights ``n_trials - 1`` and weight x (var / mean), 0 where a
+    unit is left out (zero mean count, fewer than two trials, undefined values)."""
     ok = np.isfinite(mean) & np.isfinite(var) & (mean > 0) & (n_trials > 1)
     w = np.where(ok, n_trials - 1.0, 0.0)
     with np.errstate(invalid="ignore", divide="ignore"):
@@ -93,14 +84,13 @@ SELECT_BUCKETS = 256
 @dataclass
 class MatchPlan:
     """What :func:`mean_match_mask` needs that does not change between matchings of one series
-    (its bins, histograms and common distribution): worked out once, used by every repeat."""
+    (its bins, histograms and common distribution): worked out once, used by every repeat.
+    Arrays are (units, windows), the layout of the uniforms drawn."""
 
-    #: (windows, units): each unit's bin as a float, inf where unusable (the key without U)
-    base: np.ndarray
-    #: (windows, units): each unit's (window, bin) cell as an index into the thresholds
+    #: each unit's (window, bin) cell; unusable units are in an extra cell after the last,
+    #: which keeps nothing
     cell: np.ndarray
-    #: (windows, units): the first bucket of each unit's cell in the bucket counts; unusable
-    #: units are counted in an extra cell after the last, which nothing reads
+    #: the first bucket of each unit's cell in the bucket counts
     first_bucket: np.ndarray
     #: (cells,): how many units each (window, bin) cell keeps (the common count of its bin)
     keep_count: np.ndarray
@@ -108,11 +98,8 @@ class MatchPlan:
     @classmethod
     def of(cls, bins: np.ndarray, hist: np.ndarray, common: np.ndarray) -> MatchPlan:
         n_win, n_bins = hist.shape
-        bins_t = bins.T
-        usable = bins_t >= 0
-        cell = np.maximum(bins_t, 0) + n_bins * np.arange(n_win)[:, None]
-        return cls(base=np.where(usable, bins_t, np.inf), cell=cell,
-                   first_bucket=np.where(usable, cell, n_win * n_bins) * SELECT_BUCKETS,
+        cell = np.where(bins >= 0, bins + n_bins * np.arange(n_win)[None, :], n_win * n_bins)
+        return cls(cell=cell, first_bucket=cell * SELECT_BUCKETS,
                    keep_count=np.tile(np.asarray(common, dtype=np.int64), n_win))
 
 
@@ -122,46 +109,40 @@ def mean_match_mask(bins: np.ndarray, hist: np.ndarray, common: np.ndarray,
 
     ``bins``: (units, windows) bin index, -1 for unusable; ``hist``: (windows, bins) counts,
     each at least ``common``. Within each (window, bin) cell the kept units are a uniformly
-    random subset: each unit gets the key ``bin + U(0, 1)``, and a unit is kept when its key
-    is at most the ``common[bin]``-th smallest key of its cell. ``plan``: :meth:`MatchPlan.of`
-    the same arguments, when the series is matched more than once.
+    random subset: each unit draws U(0, 1), and the ``common[bin]`` units of the cell with the
+    smallest U are kept. ``plan``: :meth:`MatchPlan.of` the same arguments, when the series is
+    matched more than once.
 
-    The threshold of every cell is found without sorting the keys (a bucket selection): the
-    units are counted by cell and by which of ``SELECT_BUCKETS`` equal slices of [0, 1) their
-    U falls in; the slice where a cell's running count reaches its keep count holds the
-    threshold, and only the units of those slices (about one in ``SELECT_BUCKETS``) are put
-    in order. The key is increasing in U within a cell, so this is the same threshold as a
-    sort of the keys gives.
+    Each cell's threshold is found without sorting (a bucket selection): the units are counted
+    by cell and by which of ``SELECT_BUCKETS`` equal slices of [0, 1) their U falls in; the
+    slice where a cell's running count reaches its keep count holds the threshold, and only
+    the units of those slices (about one in ``SELECT_BUCKETS``) are put in order.
     """
     n_units, n_win = bins.shape
     plan = MatchPlan.of(bins, hist, common) if plan is None else plan
-    u_t = rng.random((n_units, n_win)).T  # (windows, units), each window's units together
-    key = plan.base + u_t
+    u = rng.random((n_units, n_win))
     n_cells = len(plan.keep_count)
-    bucket = (u_t * SELECT_BUCKETS).astype(np.intp)
-    at = plan.first_bucket + bucket
+    at = plan.first_bucket + (u * SELECT_BUCKETS).astype(np.intp)
     counts = np.bincount(at.ravel(), minlength=(n_cells + 1) * SELECT_BUCKETS)
     running = counts[:n_cells * SELECT_BUCKETS].reshape(n_cells, SELECT_BUCKETS).cumsum(axis=1)
     need = plan.keep_count
-    # the slice holding each cell's need-th smallest key, and how many keys lie below it
+    # the slice holding each cell's need-th smallest U, and how many lie below it
     slice_of = (running < need[:, None]).sum(axis=1)
     below = np.where(slice_of > 0,
                      running[np.arange(n_cells), np.maximum(slice_of - 1, 0)], 0)
-    # the units in each cell's threshold slice (none for cells that keep nothing; unusable
-    # units are counted past the last cell, so they never match)
-    target = np.where(need > 0, slice_of + SELECT_BUCKETS * np.arange(n_cells), -1)
+    # the units in each cell's threshold slice (none for cells that keep nothing)
+    target = np.append(np.where(need > 0, slice_of + SELECT_BUCKETS * np.arange(n_cells), -1),
+                       -1)
     in_slice = at == target[plan.cell]
-    cand_cell, cand_key = plan.cell[in_slice], key[in_slice]
-    order = np.lexsort((cand_key, cand_cell))
-    cand_cell, cand_key = cand_cell[order], cand_key[order]
-    threshold = np.full(n_cells, -np.inf)
-    chosen = need > 0
-    if chosen.any():
-        start = np.searchsorted(cand_cell, np.flatnonzero(chosen))
-        threshold[chosen] = cand_key[start + (need - below)[chosen] - 1]
-    # an unusable unit's key is inf, above every threshold
-    keep = key <= threshold[plan.cell]
-    return keep.T
+    cand_cell, cand_u = plan.cell[in_slice], u[in_slice]
+    order = np.lexsort((cand_u, cand_cell))
+    cand_cell, cand_u = cand_cell[order], cand_u[order]
+    threshold = np.full(n_cells + 1, -np.inf)  # the extra cell of unusable units keeps none
+    chosen = np.flatnonzero(need > 0)
+    if len(chosen):
+        start = np.searchsorted(cand_cell, chosen)
+        threshold[chosen] = cand_u[start + (need - below)[chosen] - 1]
+    return u <= threshold[plan.cell]
 
 
 def bin_edges(means: list[np.ndarray], n_bins: int) -> np.ndarray:
@@ -194,42 +175,59 @@ class Series:
     n_trials: np.ndarray
 
 
+@dataclass
+class SeriesTerms:
+    """What the slopes use of a series, per unit and window: its mean-count bin
+    (:func:`bin_index`) and the weighted slope's terms (:func:`_slope_terms`). A resample of
+    units is these rows gathered: each row depends on its unit alone."""
+
+    bins: np.ndarray
+    w: np.ndarray
+    w_ratio: np.ndarray
+
+    @classmethod
+    def of(cls, s: Series, edges: np.ndarray) -> SeriesTerms:
+        return cls(bin_index(s.mean, s.var, edges), *_slope_terms(s.mean, s.var, s.n_trials))
+
+    def rows(self, index: np.ndarray) -> SeriesTerms:
+        return SeriesTerms(self.bins[index], self.w[index], self.w_ratio[index])
+
+
 def estimate(series: list[Series], scopes: list[int], edges: np.ndarray, *, n_repeats: int,
-             rng: np.random.Generator, details: bool = True) -> list[dict]:
+             rng: np.random.Generator, details: bool = True,
+             terms: list[SeriesTerms] | None = None) -> list[dict]:
     """Regression (weighted and not) and mean-matched slopes of every series, every window.
 
     ``details=False`` (the subject resamples, which use only ``regression`` and ``matched``)
     leaves out the unweighted slope and the kept units' mean count; the random numbers drawn
-    and the slopes are the same either way."""
+    and the slopes are the same either way. ``terms``: :meth:`SeriesTerms.of` each series,
+    when known (then ``series`` is read only for the details)."""
     n_bins = len(edges) - 1
-    bins, hists = [], []
-    for s in series:
-        b = bin_index(s.mean, s.var, edges)
-        n_win = b.shape[1]
-        usable = b >= 0
-        key = (b + n_bins * np.arange(n_win)[None, :])[usable]
-        bins.append(b)
+    terms = [SeriesTerms.of(s, edges) for s in series] if terms is None else terms
+    hists = []
+    for t in terms:
+        n_win = t.bins.shape[1]
+        usable = t.bins >= 0
+        key = (t.bins + n_bins * np.arange(n_win)[None, :])[usable]
         hists.append(np.bincount(key, minlength=n_win * n_bins).reshape(n_win, n_bins))
     common = {}
     for scope, hist in zip(scopes, hists, strict=True):
         low = hist.min(axis=0)
         common[scope] = low if scope not in common else np.minimum(common[scope], low)
     out = []
-    for s, b, hist, scope in zip(series, bins, hists, scopes, strict=True):
+    for k, (t, hist, scope) in enumerate(zip(terms, hists, scopes, strict=True)):
         slopes, kept_means = [], []
-        w, w_ratio = _slope_terms(s.mean, s.var, s.n_trials)  # the same in every repeat
-        plan = MatchPlan.of(b, hist, common[scope])
+        plan = MatchPlan.of(t.bins, hist, common[scope])
         for _ in range(n_repeats):
-            keep = mean_match_mask(b, hist, common[scope], rng, plan)
-            slopes.append(_slope_of(w, w_ratio, keep=keep))
+            keep = mean_match_mask(t.bins, hist, common[scope], rng, plan)
+            slopes.append(_slope_of(t.w, t.w_ratio, keep=keep))
             if details:
-                kept_means.append(mean_of_kept(s.mean, keep))
-        result = {"regression": weighted_slope(s.mean, s.var, s.n_trials),
-                  "matched": np.mean(slopes, axis=0)}
+                kept_means.append(mean_of_kept(series[k].mean, keep))
+        result = {"regression": _slope_of(t.w, t.w_ratio), "matched": np.mean(slopes, axis=0)}
         if details:
-            result.update(unweighted=slope_through_origin(s.mean, s.var, axis=0),
+            result.update(unweighted=slope_through_origin(series[k].mean, series[k].var, axis=0),
                           kept_mean=np.mean(kept_means, axis=0),
-                          kept=np.full(b.shape[1], int(common[scope].sum())))
+                          kept=np.full(t.bins.shape[1], int(common[scope].sum())))
         out.append(result)
     return out
 
@@ -306,13 +304,12 @@ def _estimate_resamples(first: int, stop: int) -> tuple[np.ndarray, np.ndarray]:
     n_win = series[0].mean.shape[1] if series else 0
     reg = np.full((stop - first, len(series), n_win), np.nan)
     matched = np.full_like(reg, np.nan)
+    terms = job["terms"]
     for b in range(first, stop):
-        resampled = [Series(s.group, s.condition, s.alignment, s.mean[draws[s.group][b]],
-                            s.var[draws[s.group][b]], s.n_trials[draws[s.group][b]])
-                     for s in series]
-        for k, result in enumerate(estimate(resampled, job["scopes"], job["edges"],
+        resampled = [t.rows(draws[s.group][b]) for s, t in zip(series, terms, strict=True)]
+        for k, result in enumerate(estimate(series, job["scopes"], job["edges"],
                                             n_repeats=job["n_repeats"], rng=rng,
-                                            details=False)):
+                                            details=False, terms=resampled)):
             reg[b - first, k] = result["regression"]
             matched[b - first, k] = result["matched"]
     return reg, matched
@@ -339,7 +336,8 @@ def _resample_estimates(series, scopes, edges, draws, *, n_boot: int, n_repeats:
         return boot
     counts = [_uniforms_per_estimate(series, draws, b, n_repeats) for b in range(n_boot)]
     exact = isinstance(rng.bit_generator, np.random.PCG64)
-    _RESAMPLING.update(series=series, scopes=scopes, edges=edges, draws=draws,
+    _RESAMPLING.update(series=series, terms=[SeriesTerms.of(s, edges) for s in series],
+                       scopes=scopes, edges=edges, draws=draws,
                        n_repeats=n_repeats, offsets=np.concatenate([[0], np.cumsum(counts)]),
                        state=rng.bit_generator.state, rng=None if exact else rng)
     try:
