@@ -63,6 +63,9 @@ def test_only_large_sessions_take_two_threads_for_their_fits():
     # the spike table holds about 8 bytes per spike: the same size as the table's own limit
     assert RECOVERY_PARALLEL_MB * 1e6 / 8 == PARALLEL_MIN_SPIKES
     assert recovery_threads(1.0) == 1 and recovery_threads(180.0) == 2
+    # a job per stage on a small machine: the fits leave the second core to the other stages
+    assert recovery_threads(180.0, cores=2) == 1 and recovery_threads(180.0, cores=3) == 1
+    assert recovery_threads(180.0, cores=4) == 2 and recovery_threads(1.0, cores=8) == 1
 
 
 def test_raw_spike_size_counts_the_spike_files_only(tmp_path):

@@ -35,6 +35,7 @@ from spikevar.pipeline.rule_inputs import (
     primary_alignment,
     raw_spikes_mb,
     recovery_threads,
+    workflow_cores,
     report_categories,
     sheet_records,
 )
@@ -52,6 +53,8 @@ except SpikevarInputError as err:
     raise WorkflowError(f"spikevar: {err}") from None
 validate(SHEET, str(REPO / "workflow" / "schemas" / "sessions.schema.yaml"))
 SESSIONS = list(SHEET.index)
+# --cores of this run (None on a cluster): how many threads a session's fits take
+CORES = workflow_cores(workflow)
 
 wildcard_constraints:
     session=SESSION_ID_PATTERN,

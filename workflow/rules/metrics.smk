@@ -15,6 +15,8 @@ rule session_metrics:
         **LAYOUT.session_logs("{session}", "metrics"),
     benchmark:
         LAYOUT.session_benchmark("{session}", "session_metrics")
+    # first when several jobs are ready: every cohort table waits for this chain
+    priority: 2
     conda:
         "../envs/spikevar.yaml"
     group:

@@ -14,7 +14,9 @@ rule session_recovery:
         **LAYOUT.session_logs("{session}", "recovery"),
     benchmark:
         LAYOUT.session_benchmark("{session}", "session_recovery")
-    threads: lambda wildcards: recovery_threads(raw_spikes_mb(SHEET, wildcards.session, config))
+    threads: lambda w: recovery_threads(raw_spikes_mb(SHEET, w.session, config), CORES)
+    # after the stages every later one waits for (metrics, selection, shared), before the rest
+    priority: 1
     conda:
         "../envs/spikevar.yaml"
     group:

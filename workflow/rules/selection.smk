@@ -17,6 +17,8 @@ rule session_selection:
         **LAYOUT.session_logs("{session}", "selection"),
     benchmark:
         LAYOUT.session_benchmark("{session}", "session_selection")
+    # first when several jobs are ready: every cohort table waits for this chain
+    priority: 2
     conda:
         "../envs/spikevar.yaml"
     group:

@@ -23,6 +23,8 @@ rule session_shared:
         **LAYOUT.session_logs("{session}", "shared"),
     benchmark:
         LAYOUT.session_benchmark("{session}", "session_shared")
+    # first when several jobs are ready: every cohort table waits for this chain
+    priority: 2
     conda:
         "../envs/spikevar.yaml"
     group:

@@ -8,12 +8,15 @@ import os
 import tempfile
 from collections.abc import Callable
 from pathlib import Path
+from typing import TYPE_CHECKING
 
-import pandas as pd
 import pyarrow as pa
 import pyarrow.parquet as pq
 
 from spikevar.base.errors import OutputSpaceError, SpikevarInputError, is_disk_full
+
+if TYPE_CHECKING:
+    import pandas as pd
 
 METADATA_KEY = b"spikevar"
 
@@ -177,6 +180,8 @@ def read_frame(path, columns: list[str] | None = None) -> pd.DataFrame:
     parts = dataset_parts(path)
     if Path(path).is_dir():
         if not parts:
+            import pandas as pd  # the cohort-table jobs read and write Arrow only
+
             return pd.DataFrame()
         return pa.concat_tables([read_parquet_checked(p, columns=columns)
                                  for p in parts]).to_pandas()
