@@ -320,7 +320,8 @@ def _estimate_resamples_task(task: tuple[int, int]) -> tuple[np.ndarray, np.ndar
 
 
 def _resample_estimates(series, scopes, edges, draws, *, n_boot: int, n_repeats: int,
-                        rng: np.random.Generator, workers: int = 1) -> dict[str, np.ndarray]:
+                        rng: np.random.Generator, workers: int = 1,
+                        terms: list[SeriesTerms] | None = None) -> dict[str, np.ndarray]:
     """(resamples, series, windows) slopes of every subject resample, over ``workers`` forked
     processes.
 
@@ -336,7 +337,8 @@ def _resample_estimates(series, scopes, edges, draws, *, n_boot: int, n_repeats:
         return boot
     counts = [_uniforms_per_estimate(series, draws, b, n_repeats) for b in range(n_boot)]
     exact = isinstance(rng.bit_generator, np.random.PCG64)
-    _RESAMPLING.update(series=series, terms=[SeriesTerms.of(s, edges) for s in series],
+    terms = [SeriesTerms.of(s, edges) for s in series] if terms is None else terms
+    _RESAMPLING.update(series=series, terms=terms,
                        scopes=scopes, edges=edges, draws=draws,
                        n_repeats=n_repeats, offsets=np.concatenate([[0], np.cumsum(counts)]),
                        state=rng.bit_generator.state, rng=None if exact else rng)
@@ -394,7 +396,8 @@ def population_fano_table(timecourse: pd.DataFrame, *, settings: MeanMatchSettin
     keys = [scope_names(s) for s in series]
     scopes = [keys.index(k) for k in keys]
     edges = bin_edges([s.mean for s in series], settings.n_bins)
-    point = estimate(series, scopes, edges, n_repeats=settings.n_repeats, rng=rng)
+    terms = [SeriesTerms.of(s, edges) for s in series]  # the point estimate's and resamples'
+    point = estimate(series, scopes, edges, n_repeats=settings.n_repeats, rng=rng, terms=terms)
 
     # hierarchical resamples: one draw of units per group, shared by its conditions; none
     # when no group has two subjects (no interval is given from one subject)
@@ -410,7 +413,8 @@ def population_fano_table(timecourse: pd.DataFrame, *, settings: MeanMatchSettin
         cuts = np.searchsorted(rep, np.arange(1, n_boot))
         draws[group] = np.split(rows, cuts)
     boot = _resample_estimates(series, scopes, edges, draws, n_boot=n_boot,
-                               n_repeats=settings.n_repeats, rng=rng, workers=workers)
+                               n_repeats=settings.n_repeats, rng=rng, workers=workers,
+                               terms=terms)
     reg = np.stack([r["regression"] for r in point])
     matched = np.stack([r["matched"] for r in point])
     reg_lo, reg_hi = few_cluster_interval(reg, boot["regression"], n_subjects)
