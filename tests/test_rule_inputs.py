@@ -15,6 +15,7 @@ from spikevar.pipeline.rule_inputs import (
     raw_spikes_mb,
     recovery_threads,
     report_categories,
+    workflow_cores,
 )
 
 
@@ -66,6 +67,21 @@ def test_only_large_sessions_take_two_threads_for_their_fits():
     # a job per stage on a small machine: the fits leave the second core to the other stages
     assert recovery_threads(180.0, cores=2) == 1 and recovery_threads(180.0, cores=3) == 1
     assert recovery_threads(180.0, cores=4) == 2 and recovery_threads(1.0, cores=8) == 1
+
+
+def test_cores_of_a_run_without_cores_are_unknown():
+    from snakemake.exceptions import WorkflowError
+
+    class Local:
+        cores = 2
+
+    class Cluster:  # Snakemake's workflow.cores raises when --cores was not given
+        @property
+        def cores(self):
+            raise WorkflowError("Workflow requires a total number of cores to be defined")
+
+    assert workflow_cores(Local()) == 2 and workflow_cores(Cluster()) is None
+    assert recovery_threads(180.0, workflow_cores(Cluster())) == 2
 
 
 def test_raw_spike_size_counts_the_spike_files_only(tmp_path):
