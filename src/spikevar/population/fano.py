@@ -319,11 +319,11 @@ def _estimate_resamples_task(task: tuple[int, int]) -> tuple[np.ndarray, np.ndar
     return _estimate_resamples(*task)
 
 
-def _resample_estimates(series, scopes, edges, draws, *, n_boot: int, n_repeats: int,
-                        rng: np.random.Generator, workers: int = 1,
-                        terms: list[SeriesTerms] | None = None) -> dict[str, np.ndarray]:
+def _resample_estimates(series, terms: list[SeriesTerms], scopes, edges, draws, *, n_boot: int,
+                        n_repeats: int, rng: np.random.Generator,
+                        workers: int = 1) -> dict[str, np.ndarray]:
     """(resamples, series, windows) slopes of every subject resample, over ``workers`` forked
-    processes.
+    processes. ``terms``: :meth:`SeriesTerms.of` each series (what the resamples gather).
 
     Each resample's matchings use the random numbers the one-process loop would give it: the
     count each resample draws is known in advance, so a worker starts its share by advancing
@@ -337,7 +337,6 @@ def _resample_estimates(series, scopes, edges, draws, *, n_boot: int, n_repeats:
         return boot
     counts = [_uniforms_per_estimate(series, draws, b, n_repeats) for b in range(n_boot)]
     exact = isinstance(rng.bit_generator, np.random.PCG64)
-    terms = [SeriesTerms.of(s, edges) for s in series] if terms is None else terms
     _RESAMPLING.update(series=series, terms=terms,
                        scopes=scopes, edges=edges, draws=draws,
                        n_repeats=n_repeats, offsets=np.concatenate([[0], np.cumsum(counts)]),
@@ -412,9 +411,8 @@ def population_fano_table(timecourse: pd.DataFrame, *, settings: MeanMatchSettin
                                                   levels=("subject",))
         cuts = np.searchsorted(rep, np.arange(1, n_boot))
         draws[group] = np.split(rows, cuts)
-    boot = _resample_estimates(series, scopes, edges, draws, n_boot=n_boot,
-                               n_repeats=settings.n_repeats, rng=rng, workers=workers,
-                               terms=terms)
+    boot = _resample_estimates(series, terms, scopes, edges, draws, n_boot=n_boot,
+                               n_repeats=settings.n_repeats, rng=rng, workers=workers)
     reg = np.stack([r["regression"] for r in point])
     matched = np.stack([r["matched"] for r in point])
     reg_lo, reg_hi = few_cluster_interval(reg, boot["regression"], n_subjects)
